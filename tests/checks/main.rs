@@ -1,0 +1,6 @@
+//! quorum's integration tests: one test binary, one module per feature.
+//!
+//! Reference values come from outside the project (scipy, statsmodels, NIST StRD,
+//! published worked examples, open datasets); each module names its sources.
+
+mod support;

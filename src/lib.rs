@@ -1,21 +1,41 @@
 //! quorum: robust and nonparametric analysis of between-subjects factorial experiments.
 //!
 //! The library does all the work; the `quorum` binary only parses flags into a
-//! [`config::Config`], calls [`analysis`] and maps errors to exit codes.
+//! [`config::Config`], calls [`analysis::run`] and maps errors to exit codes.
 //!
 //! Data flows one way (see `DEVELOPERS.md`):
 //!
 //! ```text
-//! data::Table ─> design::Design ─> engines::* ─> analysis::Analysis ─> report::{text, json}
+//! data::Observations ─> design::Design ─> model::Fit ─> engines::* ─> concordance
+//!                                    └──> diagnostics (cell table, checks) ──┐
+//!                                                     results::Analysis <────┘ ─> report::{text, json}
 //! ```
 //!
 //! * [`data`] reads delimited text into typed columns with 1-based line provenance.
 //! * [`design`] builds factors, cells, terms and the per-term quadratic forms in cell sums.
-//! * [`model`] computes sums of squares of Types I–III and effect sizes.
+//! * [`model`] fits the full factorial model: SS of Types I–III and effect sizes.
 //! * [`dist`] holds every distribution function and p-value.
-//! * [`resample`] derives reproducible random streams and runs chunked parallel loops.
+//! * [`resample`] derives reproducible random streams for resampling engines.
 //! * [`engines`] holds one inference engine per file behind the [`engines::Engine`] trait.
-//! * [`report`] renders the one [`analysis::Analysis`] value; it never computes statistics.
+//! * [`diagnostics`] describes cells and checks assumptions; it never decides.
+//! * [`concordance`] compares the engines' decisions term by term.
+//! * [`report`] renders the one [`results::Analysis`] value; it never computes statistics.
 #![deny(missing_docs)]
 
+pub mod analysis;
+pub mod concordance;
+pub mod config;
+pub mod data;
+pub mod demo;
+pub mod design;
+pub mod diagnostics;
 pub mod dist;
+pub mod engines;
+pub mod error;
+pub mod model;
+pub mod report;
+pub mod resample;
+pub mod results;
+pub mod summary;
+
+pub use error::{Error, Result};

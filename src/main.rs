@@ -1,1 +1,76 @@
-fn main() {}
+//! The `quorum` binary: parse flags, run the library, print, map errors to exit codes.
+//!
+//! Exit codes (README "Exit codes"): 0 success; 2 usage or input error; 3 analysis
+//! impossible on these data; 4 failed internal consistency check (a bug).
+
+mod cli;
+
+use clap::Parser;
+use quorum::config::Format;
+use quorum::error::Error;
+use quorum::report::{folder, renderer};
+use std::io::{self, Write};
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+fn main() -> ExitCode {
+    let cli = cli::Cli::parse();
+    match run(cli) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(e) => {
+            let mut msg = format!("error: {e}");
+            let mut source = std::error::Error::source(&e);
+            while let Some(s) = source {
+                msg.push_str(&format!("\n  caused by: {s}"));
+                source = s.source();
+            }
+            eprintln!("{msg}");
+            ExitCode::from(e.exit_code() as u8)
+        }
+    }
+}
+
+fn run(cli: cli::Cli) -> Result<(), Error> {
+    let config = cli.into_config(command_line())?;
+    let analysis = quorum::analysis::run(&config)?;
+    let input = match &config.data.source {
+        quorum::config::Source::File(p) => Some(p.clone()),
+        _ => None,
+    };
+    if let Some(dir) = &config.output.report_dir {
+        folder::write_report(dir, &analysis, input.as_deref())?;
+    }
+    let mut stdout = io::stdout().lock();
+    let printed = renderer(config.output.format).render(&analysis, &mut stdout).and_then(|_| stdout.flush());
+    match printed {
+        // A closed pipe (`quorum … | head`) is not an error.
+        Err(e) if e.kind() == io::ErrorKind::BrokenPipe => {}
+        Err(e) => return Err(Error::Io { path: "<stdout>".into(), action: "writing", source: e }),
+        Ok(()) => {}
+    }
+    if let (Some(dir), Format::Text) = (&config.output.report_dir, config.output.format) {
+        eprintln!("report folder: {}", display_dir(dir));
+    }
+    Ok(())
+}
+
+fn display_dir(dir: &std::path::Path) -> String {
+    let p: PathBuf = dir.to_path_buf();
+    format!("{}/", p.display())
+}
+
+/// The command as typed, quoted where a shell would need it (for the reproducibility block).
+fn command_line() -> String {
+    std::env::args()
+        .enumerate()
+        .map(|(i, a)| {
+            let a = if i == 0 { "quorum".to_string() } else { a };
+            if !a.is_empty() && a.chars().all(|c| c.is_ascii_alphanumeric() || "-_./=,:+@".contains(c)) {
+                a
+            } else {
+                format!("'{}'", a.replace('\'', "'\\''"))
+            }
+        })
+        .collect::<Vec<_>>()
+        .join(" ")
+}

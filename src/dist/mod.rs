@@ -41,3 +41,15 @@ pub fn chi2_sf(x: f64, df: f64) -> f64 {
     }
     statrs::function::gamma::gamma_ur(df / 2.0, x / 2.0)
 }
+
+/// Quantile of Student's t distribution (lower tail): x with P(t_df ≤ x) = p.
+pub fn t_quantile(p: f64, df: f64) -> f64 {
+    use statrs::distribution::{ContinuousCDF, StudentsT};
+    if !(df > 0.0) || !(0.0..=1.0).contains(&p) {
+        return f64::NAN;
+    }
+    match StudentsT::new(0.0, 1.0, df) {
+        Ok(t) => t.inverse_cdf(p),
+        Err(_) => f64::NAN,
+    }
+}

@@ -1,0 +1,91 @@
+//! Running a whole analysis: read, build the design, describe, run the engines,
+//! compare them, and return the one [`Analysis`] value every renderer reads.
+
+use crate::concordance;
+use crate::config::{Config, Job};
+use crate::data;
+use crate::design::forms::SsForms;
+use crate::design::Design;
+use crate::diagnostics::{self, cells};
+use crate::engines::{self, Context};
+use crate::error::{Error, Result};
+use crate::model::Fit;
+use crate::results::{Analysis, DesignSummary, FactorSummary, InputSummary, Reproducibility, SCHEMA};
+
+/// Runs the job described by `config`.
+///
+/// # Errors
+/// Input errors (exit 2), impossible analyses (exit 3) and failed internal checks (exit 4).
+pub fn run(config: &Config) -> Result<Analysis> {
+    let obs = data::read(&config.data)?;
+    let design = Design::build(&obs, &config.data)?;
+    let input = InputSummary {
+        path: obs.source.clone(),
+        rows_read: obs.rows_read,
+        rows_used: design.n_obs(),
+        dropped: obs.dropped.clone(),
+    };
+    let pool = thread_pool(config.settings.threads)?;
+    pool.install(|| analyse_design(config, &design, input))
+}
+
+/// Runs the job on a design that is already built.
+///
+/// # Errors
+/// As [`run`].
+pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> Result<Analysis> {
+    let settings = &config.settings;
+    if config.job == Job::Analyze {
+        design.check_testable()?;
+    }
+    let fit = Fit::new(design);
+    let summary = DesignSummary {
+        outcome: design.outcome.clone(),
+        factors: design
+            .factors()
+            .iter()
+            .map(|f| FactorSummary { name: f.name.clone(), levels: f.levels.clone(), measured: f.measured })
+            .collect(),
+        balanced: design.is_balanced(),
+        cells: cells::cell_table(design, settings.trim, settings.ci_level),
+        marginal_means: cells::marginal_means(design, &fit, settings.ci_level),
+    };
+    let diagnostics = diagnostics::diagnose(design, &fit);
+    let (engine_results, concordance) = match config.job {
+        Job::Describe => (Vec::new(), Vec::new()),
+        Job::Analyze => {
+            let forms = SsForms::new(&design.layout, &fit.n, crate::config::SsType::Three)?;
+            let ctx = Context { design, fit: &fit, forms: &forms, settings };
+            let results = engines::run_selected(&ctx)?;
+            let terms: Vec<String> = design.terms().iter().map(|t| t.name.clone()).collect();
+            let conc = concordance::verdicts(&terms, &results);
+            (results, conc)
+        }
+    };
+    Ok(Analysis {
+        schema: SCHEMA,
+        input,
+        design: summary,
+        diagnostics,
+        engines: engine_results,
+        concordance,
+        sensitivity: Vec::new(),
+        followup: Vec::new(),
+        reproducibility: Reproducibility {
+            version: env!("CARGO_PKG_VERSION").to_string(),
+            seed: settings.seed,
+            threads: rayon::current_num_threads(),
+            command: config.command.clone(),
+        },
+    })
+}
+
+fn thread_pool(threads: Option<usize>) -> Result<rayon::ThreadPool> {
+    let mut builder = rayon::ThreadPoolBuilder::new();
+    if let Some(t) = threads {
+        builder = builder.num_threads(t);
+    }
+    builder
+        .build()
+        .map_err(|e| Error::usage(format!("cannot start {} worker threads: {e}", threads.unwrap_or(0)), "use fewer --threads"))
+}

@@ -1,0 +1,286 @@
+//! Command-line flags (clap) and their validation into a library [`Config`].
+//!
+//! Two stages, so the library never sees clap: the raw flags below, then
+//! [`Cli::into_config`] which checks ranges and names and builds typed values.
+
+use clap::{Args, Parser, Subcommand, ValueEnum};
+use quorum::config::{Config, DataSpec, Delimiter, Format, Job, OutputSpec, Settings, Source, SsType};
+use quorum::error::{Error, Result};
+use std::path::PathBuf;
+
+/// Robust and nonparametric analysis of between-subjects factorial experiments.
+#[derive(Debug, Parser)]
+#[command(name = "quorum", version, about, long_about = None, propagate_version = true)]
+pub struct Cli {
+    /// What to do.
+    #[command(subcommand)]
+    pub command: Command,
+}
+
+/// Subcommands.
+#[derive(Debug, Subcommand)]
+pub enum Command {
+    /// Test every main effect and interaction with every engine and compare the verdicts.
+    Analyze(RunArgs),
+    /// Cell table and diagnostics only (no tests).
+    Describe(RunArgs),
+    /// Analyze the invented demo data compiled into quorum and write a report folder.
+    Demo(DemoArgs),
+}
+
+/// Arguments of `analyze` and `describe`.
+#[derive(Debug, Args)]
+pub struct RunArgs {
+    /// Data file in long format (CSV, TSV or semicolon-separated; `-` reads standard input).
+    pub data: String,
+    #[command(flatten)]
+    pub columns: ColumnArgs,
+    #[command(flatten)]
+    pub reading: ReadingArgs,
+    #[command(flatten)]
+    pub engine: EngineArgs,
+    #[command(flatten)]
+    pub output: OutputArgs,
+}
+
+/// Arguments of `demo`.
+#[derive(Debug, Args)]
+pub struct DemoArgs {
+    #[command(flatten)]
+    pub engine: EngineArgs,
+    /// Output format on standard output.
+    #[arg(long, value_enum, default_value_t = FormatArg::Text)]
+    pub format: FormatArg,
+    /// Report folder to write (made by quorum or empty).
+    #[arg(long, value_name = "DIR", default_value = quorum::demo::DEFAULT_FOLDER)]
+    pub report: PathBuf,
+    /// No progress bars.
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+/// Which columns play which role.
+#[derive(Debug, Args)]
+pub struct ColumnArgs {
+    /// Outcome column (the measured response).
+    #[arg(short = 'y', long, value_name = "COL")]
+    pub outcome: String,
+    /// Factor columns, comma-separated (1 to 6); their order names the interaction terms.
+    #[arg(short = 'f', long, value_name = "A,B,...", value_delimiter = ',', required = true)]
+    pub factors: Vec<String>,
+    /// Participant-id column: a repeated id stops the analysis (one row per participant).
+    #[arg(long, value_name = "COL")]
+    pub id: Option<String>,
+    /// Level order of a factor, e.g. `--levels dose=low,mid,high` (repeatable).
+    #[arg(long, value_name = "FACTOR=L1,L2,...")]
+    pub levels: Vec<String>,
+    /// Factors that are measured (e.g. age group) rather than manipulated; enables generalized η².
+    #[arg(long, value_name = "A,B", value_delimiter = ',')]
+    pub measured: Vec<String>,
+}
+
+/// How to read the file.
+#[derive(Debug, Args)]
+pub struct ReadingArgs {
+    /// Tokens that mark a missing value, comma-separated (default: NA, empty, `.`, NaN).
+    #[arg(long, value_name = "TOKENS", value_delimiter = ',', allow_hyphen_values = true)]
+    pub missing: Option<Vec<String>>,
+    /// Field delimiter: auto, comma, tab, semicolon, or one character.
+    #[arg(long, value_name = "D", default_value = "auto")]
+    pub delimiter: String,
+    /// Numbers use a decimal comma (`7,5`).
+    #[arg(long)]
+    pub decimal_comma: bool,
+}
+
+/// Settings shared by the engines.
+#[derive(Debug, Args)]
+pub struct EngineArgs {
+    /// Sum-of-squares type of the classical table (verdicts always use Type III).
+    #[arg(long, value_name = "1|2|3", default_value_t = 3, value_parser = clap::value_parser!(u8).range(1..=3))]
+    pub ss: u8,
+    /// Significance level for decisions.
+    #[arg(long, default_value_t = 0.05)]
+    pub alpha: f64,
+    /// Confidence level of intervals.
+    #[arg(long, default_value_t = 0.95)]
+    pub ci_level: f64,
+    /// Trimming proportion for trimmed means, in [0, 0.5).
+    #[arg(long, default_value_t = 0.2)]
+    pub trim: f64,
+    /// Random permutations per term.
+    #[arg(long, default_value_t = 4999)]
+    pub permutations: u64,
+    /// Upper limit when permutations are extended because p is close to alpha.
+    #[arg(long, default_value_t = 99_999)]
+    pub max_permutations: u64,
+    /// Bootstrap resamples.
+    #[arg(long, default_value_t = 1999)]
+    pub resamples: u64,
+    /// Seed of every random stream (always printed).
+    #[arg(long, default_value_t = quorum::config::DEFAULT_SEED)]
+    pub seed: u64,
+    /// Worker threads (results never depend on it).
+    #[arg(long)]
+    pub threads: Option<usize>,
+    /// Engines to run, comma-separated (default: all).
+    #[arg(long, value_name = "IDS", value_delimiter = ',')]
+    pub engines: Option<Vec<String>>,
+}
+
+/// Where results go.
+#[derive(Debug, Args)]
+pub struct OutputArgs {
+    /// Output format on standard output.
+    #[arg(long, value_enum, default_value_t = FormatArg::Text)]
+    pub format: FormatArg,
+    /// Also write a report folder (results.json, report.txt).
+    #[arg(long, value_name = "DIR")]
+    pub report: Option<PathBuf>,
+    /// No progress bars.
+    #[arg(long)]
+    pub quiet: bool,
+}
+
+/// Output formats.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum FormatArg {
+    /// Aligned text tables.
+    Text,
+    /// The quorum.results/1 JSON object.
+    Json,
+}
+
+impl From<FormatArg> for Format {
+    fn from(f: FormatArg) -> Format {
+        match f {
+            FormatArg::Text => Format::Text,
+            FormatArg::Json => Format::Json,
+        }
+    }
+}
+
+impl Cli {
+    /// Validates the flags into a run configuration.
+    ///
+    /// # Errors
+    /// A usage error (exit 2) naming the flag and what to do.
+    pub fn into_config(self, command: String) -> Result<Config> {
+        match self.command {
+            Command::Analyze(a) => run_config(a, Job::Analyze, command),
+            Command::Describe(a) => run_config(a, Job::Describe, command),
+            Command::Demo(d) => {
+                let mut settings = settings(&d.engine)?;
+                settings.quiet = d.quiet;
+                Ok(quorum::demo::config(settings, d.format.into(), Some(d.report)))
+            }
+        }
+    }
+}
+
+fn run_config(a: RunArgs, job: Job, command: String) -> Result<Config> {
+    let source = if a.data == "-" { Source::Stdin } else { Source::File(PathBuf::from(&a.data)) };
+    let levels = a.columns.levels.iter().map(|l| parse_levels(l)).collect::<Result<Vec<_>>>()?;
+    let data = DataSpec {
+        source,
+        outcome: a.columns.outcome,
+        factors: a.columns.factors.iter().map(|f| f.trim().to_string()).collect(),
+        id: a.columns.id,
+        missing: a.reading.missing.unwrap_or_else(DataSpec::default_missing),
+        delimiter: parse_delimiter(&a.reading.delimiter)?,
+        decimal_comma: a.reading.decimal_comma,
+        levels,
+        measured: a.columns.measured.iter().map(|f| f.trim().to_string()).collect(),
+    };
+    let mut settings = settings(&a.engine)?;
+    settings.quiet = a.output.quiet;
+    Ok(Config {
+        job,
+        data,
+        settings,
+        output: OutputSpec { format: a.output.format.into(), report_dir: a.output.report },
+        command,
+    })
+}
+
+fn settings(e: &EngineArgs) -> Result<Settings> {
+    let in_open_unit = |x: f64| x > 0.0 && x < 1.0;
+    if !in_open_unit(e.alpha) {
+        return Err(Error::usage(format!("--alpha {} is not between 0 and 1", e.alpha), "the usual value is 0.05"));
+    }
+    if !in_open_unit(e.ci_level) {
+        return Err(Error::usage(format!("--ci-level {} is not between 0 and 1", e.ci_level), "the usual value is 0.95"));
+    }
+    if !(0.0..0.5).contains(&e.trim) {
+        return Err(Error::usage(format!("--trim {} is outside [0, 0.5)", e.trim), "the usual value is 0.2; 0 gives untrimmed means"));
+    }
+    for (name, v) in [("--permutations", e.permutations), ("--resamples", e.resamples), ("--max-permutations", e.max_permutations)] {
+        if v == 0 || v >= 1 << 62 {
+            return Err(Error::usage(format!("{name} {v} is out of range"), "give a positive count, e.g. 4999"));
+        }
+    }
+    if e.threads == Some(0) {
+        return Err(Error::usage("--threads 0", "give at least one thread, or leave it out"));
+    }
+    let known = quorum::engines::ids();
+    let engines = match &e.engines {
+        None => known.iter().map(|s| s.to_string()).collect(),
+        Some(list) => {
+            for id in list {
+                if !known.contains(&id.trim()) {
+                    return Err(Error::usage(
+                        format!("unknown engine `{}`", id.trim()),
+                        format!("the engines are {}", known.join(", ")),
+                    ));
+                }
+            }
+            known.iter().filter(|k| list.iter().any(|id| id.trim() == **k)).map(|s| s.to_string()).collect()
+        }
+    };
+    Ok(Settings {
+        alpha: e.alpha,
+        ci_level: e.ci_level,
+        ss_type: match e.ss {
+            1 => SsType::One,
+            2 => SsType::Two,
+            _ => SsType::Three,
+        },
+        trim: e.trim,
+        permutations: e.permutations,
+        max_permutations: e.max_permutations.max(e.permutations),
+        resamples: e.resamples,
+        seed: e.seed,
+        threads: e.threads,
+        engines,
+        quiet: false,
+    })
+}
+
+fn parse_levels(arg: &str) -> Result<(String, Vec<String>)> {
+    let Some((factor, list)) = arg.split_once('=') else {
+        return Err(Error::usage(format!("--levels `{arg}` has no `=`"), "write it as --levels FACTOR=level1,level2,..."));
+    };
+    let levels: Vec<String> = list.split(',').map(str::to_string).collect();
+    if levels.len() < 2 {
+        return Err(Error::usage(format!("--levels `{arg}` lists fewer than two levels"), "list every level of the factor in order"));
+    }
+    Ok((factor.trim().to_string(), levels))
+}
+
+fn parse_delimiter(arg: &str) -> Result<Delimiter> {
+    Ok(match arg {
+        "auto" => Delimiter::Auto,
+        "comma" | "," => Delimiter::Byte(b','),
+        "tab" | "\\t" | "\t" => Delimiter::Byte(b'\t'),
+        "semicolon" | ";" => Delimiter::Byte(b';'),
+        other if other.len() == 1 && other.is_ascii() && !other.as_bytes()[0].is_ascii_alphanumeric() && other != "\"" => {
+            Delimiter::Byte(other.as_bytes()[0])
+        }
+        other => {
+            return Err(Error::usage(
+                format!("--delimiter `{other}` is not a delimiter quorum can use"),
+                "use auto, comma, tab, semicolon, or a single punctuation character",
+            ))
+        }
+    })
+}

@@ -1,0 +1,186 @@
+//! The validated configuration the library runs on.
+//!
+//! The binary turns raw command-line flags into these typed values (a second stage,
+//! so that the library never sees clap); every choice is an enum, every number has
+//! been range-checked. Tests and other programs build a [`Config`] directly.
+
+use std::path::PathBuf;
+
+/// Where the data come from.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub enum Source {
+    /// A file on disk.
+    File(PathBuf),
+    /// Standard input (`-` on the command line).
+    Stdin,
+    /// Text already in memory, with a display name (the demo data compiled into the binary).
+    Embedded {
+        /// Name shown in messages and in `input.path`.
+        name: String,
+        /// The file's contents.
+        text: &'static str,
+    },
+}
+
+impl Source {
+    /// The name used in messages and in `input.path`.
+    pub fn display_name(&self) -> String {
+        match self {
+            Source::File(p) => p.display().to_string(),
+            Source::Stdin => "<stdin>".to_string(),
+            Source::Embedded { name, .. } => name.clone(),
+        }
+    }
+}
+
+/// Field delimiter of the input file.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Delimiter {
+    /// Detect comma, tab or semicolon from the first lines.
+    Auto,
+    /// This byte.
+    Byte(u8),
+}
+
+/// Everything the data layer needs to read and check a file.
+#[derive(Debug, Clone)]
+pub struct DataSpec {
+    /// The input.
+    pub source: Source,
+    /// Name of the outcome column.
+    pub outcome: String,
+    /// Names of the factor columns, in the order given (this order defines term ids).
+    pub factors: Vec<String>,
+    /// Optional participant-id column: a repeated id is an input error.
+    pub id: Option<String>,
+    /// Tokens that mark a missing value (compared after trimming surrounding spaces).
+    pub missing: Vec<String>,
+    /// The field delimiter.
+    pub delimiter: Delimiter,
+    /// Numbers use a decimal comma (`7,5`) instead of a decimal point.
+    pub decimal_comma: bool,
+    /// User-given level order per factor (`--levels A=lo,mid,hi`).
+    pub levels: Vec<(String, Vec<String>)>,
+    /// Factors that are measured (e.g. age group) rather than manipulated.
+    pub measured: Vec<String>,
+}
+
+impl DataSpec {
+    /// The default missing-value tokens (DESIGN.md): `NA`, empty, `.`, `NaN`.
+    pub fn default_missing() -> Vec<String> {
+        ["NA", "", ".", "NaN"].iter().map(|s| s.to_string()).collect()
+    }
+}
+
+/// Sum-of-squares type of the classical engine's reported table.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash, serde::Serialize)]
+pub enum SsType {
+    /// Sequential, in canonical term order.
+    One,
+    /// Marginality-respecting (Langsrud 2003).
+    Two,
+    /// Each term adjusted for all others, sum-to-zero coding (the default and the
+    /// hypothesis every engine tests).
+    Three,
+}
+
+impl SsType {
+    /// 1, 2 or 3.
+    pub fn number(self) -> u8 {
+        match self {
+            SsType::One => 1,
+            SsType::Two => 2,
+            SsType::Three => 3,
+        }
+    }
+}
+
+/// Settings shared by the engines.
+#[derive(Debug, Clone)]
+pub struct Settings {
+    /// Significance level for decisions (default 0.05).
+    pub alpha: f64,
+    /// Confidence level of intervals (default 0.95).
+    pub ci_level: f64,
+    /// SS type of the classical engine's reported table (default Type III).
+    pub ss_type: SsType,
+    /// Trimming proportion γ for trimmed means (default 0.2).
+    pub trim: f64,
+    /// Random permutations per term (default 4999).
+    pub permutations: u64,
+    /// Upper limit when a term's permutations are extended near α (default 99 999).
+    pub max_permutations: u64,
+    /// Bootstrap resamples (default 1999).
+    pub resamples: u64,
+    /// Seed of every random stream (default 20240611, always printed).
+    pub seed: u64,
+    /// Worker threads (None: rayon's default). Never changes a result.
+    pub threads: Option<usize>,
+    /// Engine ids to run, in registry order.
+    pub engines: Vec<String>,
+    /// Hide progress bars.
+    pub quiet: bool,
+}
+
+/// The default seed of every random stream (METHODS §10.2).
+pub const DEFAULT_SEED: u64 = 20240611;
+
+impl Default for Settings {
+    fn default() -> Self {
+        Settings {
+            alpha: 0.05,
+            ci_level: 0.95,
+            ss_type: SsType::Three,
+            trim: 0.2,
+            permutations: 4999,
+            max_permutations: 99_999,
+            resamples: 1999,
+            seed: DEFAULT_SEED,
+            threads: None,
+            engines: crate::engines::ids().iter().map(|s| s.to_string()).collect(),
+            quiet: false,
+        }
+    }
+}
+
+/// Output format on standard output.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Format {
+    /// Aligned text tables for people.
+    Text,
+    /// The `quorum.results/1` JSON object.
+    Json,
+}
+
+/// What to produce and where.
+#[derive(Debug, Clone)]
+pub struct OutputSpec {
+    /// Format on standard output.
+    pub format: Format,
+    /// Report folder to write (results.json, report.txt, marker file).
+    pub report_dir: Option<PathBuf>,
+}
+
+/// What the run does.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Job {
+    /// Cell table, diagnostics, every engine on every term, concordance.
+    Analyze,
+    /// Cell table and diagnostics only.
+    Describe,
+}
+
+/// One complete, validated run.
+#[derive(Debug, Clone)]
+pub struct Config {
+    /// Analyze or describe.
+    pub job: Job,
+    /// The data and how to read them.
+    pub data: DataSpec,
+    /// Engine settings.
+    pub settings: Settings,
+    /// Output.
+    pub output: OutputSpec,
+    /// The command line as typed, for the reproducibility block.
+    pub command: String,
+}

@@ -1,0 +1,414 @@
+//! Reading long-format data: one row per participant, an outcome column and factor columns.
+//!
+//! The data layer knows nothing about statistics. It turns a delimited text file into
+//! an [`Observations`] value: the outcome as exactly centred doubles, each factor as
+//! integer codes into its distinct labels, and the 1-based input line of every row so
+//! that every later message and outlier can point back into the user's file. Rows with
+//! a missing value are dropped and listed; anything unusable is an input error that
+//! names the file, line and column and says what to do (DESIGN.md).
+
+pub mod number;
+pub mod text;
+
+use crate::config::DataSpec;
+use crate::error::{Error, Location, Result};
+use number::{centre_exactly, parse_number, Decimal};
+use serde::Serialize;
+use std::collections::HashMap;
+
+/// The most factors a design may have.
+pub const MAX_FACTORS: usize = 6;
+
+/// A row left out of the analysis, with its input line.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct Dropped {
+    /// 1-based input line.
+    pub line: u64,
+    /// Why, e.g. "missing outcome `score`".
+    pub reason: String,
+}
+
+/// One factor column as read: distinct labels in first-appearance order and a code per row.
+#[derive(Debug, Clone)]
+pub struct FactorColumn {
+    /// Column name.
+    pub name: String,
+    /// Distinct labels exactly as written (no trimming), in first-appearance order.
+    pub labels: Vec<String>,
+    /// Line where each label first appears (parallel to `labels`).
+    pub first_line: Vec<u64>,
+    /// Per used row, the index into `labels`.
+    pub codes: Vec<u32>,
+}
+
+/// The rows used for analysis, in input order.
+#[derive(Debug, Clone)]
+pub struct Observations {
+    /// The input as named by the user (`<stdin>` for standard input).
+    pub source: String,
+    /// Outcome column name.
+    pub outcome: String,
+    /// Outcome values minus `location`, computed exactly from the decimal text.
+    pub y: Vec<f64>,
+    /// Value added back for location statistics (means, medians, extremes).
+    pub location: f64,
+    /// Factor columns, in the order given to `--factors`.
+    pub factors: Vec<FactorColumn>,
+    /// Input line of each used row.
+    pub lines: Vec<u64>,
+    /// Data rows in the file (excluding the header and blank lines).
+    pub rows_read: usize,
+    /// Rows dropped because of a missing value.
+    pub dropped: Vec<Dropped>,
+    /// The delimiter used.
+    pub delimiter: u8,
+}
+
+/// Reads and checks the data described by `spec`.
+///
+/// # Errors
+/// Exit-2 input errors: unreadable or non-UTF-8 file, no header, unknown or duplicate
+/// columns, ragged rows, a non-numeric or non-finite outcome, a repeated participant id,
+/// too many factors, or no complete rows.
+pub fn read(spec: &DataSpec) -> Result<Observations> {
+    let source = spec.source.display_name();
+    let loc = Location::file(source.clone());
+    let bytes = text::load(&spec.source)?;
+    parse(&bytes, spec, &source, &loc)
+}
+
+/// Parses already loaded bytes (see [`read`]).
+///
+/// # Errors
+/// As [`read`].
+pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Result<Observations> {
+    check_spec(spec)?;
+    let start = text::check_text(bytes, loc)?;
+    let body = &bytes[start..];
+    let delimiter = text::detect_delimiter(body, spec.delimiter, spec.decimal_comma, loc)?;
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .delimiter(delimiter)
+        .from_reader(body);
+
+    let mut record = csv::ByteRecord::new();
+    let mut lines_of = text::LineCounter::new(body, 1);
+    let mut line_of = |record: &csv::ByteRecord| lines_of.line_at(record.position().map(|p| p.byte()).unwrap_or(0));
+    let header = loop {
+        match reader.read_byte_record(&mut record) {
+            Ok(true) if is_blank(&record) => continue,
+            Ok(true) => break header_names(&record),
+            Ok(false) => {
+                return Err(Error::input_hint(loc.clone(), "the file has no header line", "the first line must name the columns"))
+            }
+            Err(e) => return Err(csv_error(e, bytes, start, loc)),
+        }
+    };
+    let header_line = line_of(&record);
+    let columns = Columns::locate(&header, spec, &loc.at_line(header_line), delimiter)?;
+
+    let missing: Vec<&str> = spec.missing.iter().map(|s| s.trim()).collect();
+    let is_missing = |field: &str| missing.contains(&field.trim());
+
+    let nf = spec.factors.len();
+    let mut factor_cols: Vec<FactorColumn> = spec
+        .factors
+        .iter()
+        .map(|name| FactorColumn { name: name.clone(), labels: Vec::new(), first_line: Vec::new(), codes: Vec::new() })
+        .collect();
+    let mut intern: Vec<HashMap<Box<[u8]>, u32>> = vec![HashMap::new(); nf];
+    let mut ids: HashMap<Box<[u8]>, u64> = HashMap::new();
+    let mut values: Vec<f64> = Vec::new();
+    let mut decimals: Vec<Option<Decimal>> = Vec::new();
+    let mut lines: Vec<u64> = Vec::new();
+    let mut dropped = Vec::new();
+    let mut rows_read = 0usize;
+    let mut codes = vec![0u32; nf];
+
+    loop {
+        match reader.read_byte_record(&mut record) {
+            Ok(true) => {}
+            Ok(false) => break,
+            Err(e) => return Err(csv_error(e, bytes, start, loc)),
+        }
+        if is_blank(&record) {
+            continue;
+        }
+        rows_read += 1;
+        let line = line_of(&record);
+        let here = loc.at_line(line);
+        if record.len() != header.len() {
+            return Err(Error::input_hint(
+                here,
+                format!("this row has {} fields but the header has {}", record.len(), header.len()),
+                format!(
+                    "fields are split by {}; check for a stray delimiter or an unclosed quote, or name the delimiter with --delimiter",
+                    text::delimiter_name(delimiter)
+                ),
+            ));
+        }
+        // Outcome.
+        let y_text = field_str(&record, columns.outcome);
+        if is_missing(y_text) {
+            dropped.push(Dropped { line, reason: format!("missing outcome `{}`", spec.outcome) });
+            continue;
+        }
+        // Factors.
+        let mut missing_factor = None;
+        for (f, &col) in columns.factors.iter().enumerate() {
+            let raw = &record[col];
+            if is_missing(field_str(&record, col)) {
+                missing_factor = Some(f);
+                break;
+            }
+            let next = factor_cols[f].labels.len() as u32;
+            let code = *intern[f].entry(raw.into()).or_insert(next);
+            if code == next {
+                factor_cols[f].labels.push(field_str(&record, col).to_string());
+                factor_cols[f].first_line.push(line);
+            }
+            codes[f] = code;
+        }
+        if let Some(f) = missing_factor {
+            dropped.push(Dropped { line, reason: format!("missing factor `{}`", spec.factors[f]) });
+            continue;
+        }
+        let trimmed = y_text.trim();
+        let (value, decimal) = parse_number(trimmed, spec.decimal_comma).map_err(|problem| {
+            let (what, hint) = problem.explain(trimmed);
+            Error::input_hint(here.in_column(spec.outcome.clone()), what, hint)
+        })?;
+        if let Some(col) = columns.id {
+            let id = &record[col];
+            if !is_missing(field_str(&record, col)) {
+                if let Some(&first) = ids.get(id) {
+                    return Err(Error::input_hint(
+                        here.in_column(header[col].clone()),
+                        format!("participant id `{}` also appears at line {first}", field_str(&record, col)),
+                        "quorum analyses between-subjects designs: one row per participant. Repeated measures analysed as independent rows give pseudo-replicated p-values",
+                    ));
+                }
+                ids.insert(id.into(), line);
+            }
+        }
+        for (f, col) in factor_cols.iter_mut().enumerate() {
+            col.codes.push(codes[f]);
+        }
+        values.push(value);
+        decimals.push(decimal);
+        lines.push(line);
+    }
+
+    if values.is_empty() {
+        let why = if rows_read == 0 {
+            "the file has a header but no data rows".to_string()
+        } else {
+            format!("all {rows_read} data rows miss the outcome or a factor value")
+        };
+        return Err(Error::input_hint(loc.clone(), why, "check the column names and the --missing tokens"));
+    }
+    let (y, location) = centre_exactly(&values, &decimals);
+    Ok(Observations {
+        source: source.to_string(),
+        outcome: spec.outcome.clone(),
+        y,
+        location,
+        factors: factor_cols,
+        lines,
+        rows_read,
+        dropped,
+        delimiter,
+    })
+}
+
+fn check_spec(spec: &DataSpec) -> Result<()> {
+    if spec.factors.is_empty() || spec.factors.len() > MAX_FACTORS {
+        return Err(Error::usage(
+            format!("{} factors were named; quorum analyses designs with 1 to {MAX_FACTORS} factors", spec.factors.len()),
+            "name the factors with --factors A,B,...",
+        ));
+    }
+    for f in &spec.factors {
+        if f.contains(':') {
+            return Err(Error::usage(
+                format!("factor name `{f}` contains `:`, which quorum uses to join factor names into interaction terms"),
+                "rename the column in the file",
+            ));
+        }
+    }
+    for (i, f) in spec.factors.iter().enumerate() {
+        if spec.factors[..i].contains(f) {
+            return Err(Error::usage(format!("factor `{f}` is named twice in --factors"), "name each factor once"));
+        }
+        if *f == spec.outcome {
+            return Err(Error::usage(
+                format!("`{f}` is named both as the outcome and as a factor"),
+                "the outcome is the measured response; factors are the grouping columns",
+            ));
+        }
+    }
+    if let Some(id) = &spec.id {
+        if *id == spec.outcome || spec.factors.contains(id) {
+            return Err(Error::usage(format!("the id column `{id}` is also the outcome or a factor"), "name a separate participant-id column"));
+        }
+    }
+    Ok(())
+}
+
+fn is_blank(record: &csv::ByteRecord) -> bool {
+    record.iter().all(|f| f.iter().all(|b| b.is_ascii_whitespace()))
+}
+
+fn field_str(record: &csv::ByteRecord, col: usize) -> &str {
+    // The whole file was checked to be UTF-8 and the delimiters are ASCII, so every
+    // field is valid UTF-8; an empty string is a safe fallback that cannot occur.
+    std::str::from_utf8(&record[col]).unwrap_or("")
+}
+
+fn header_names(record: &csv::ByteRecord) -> Vec<String> {
+    (0..record.len()).map(|i| field_str(record, i).trim().to_string()).collect()
+}
+
+fn csv_error(e: csv::Error, bytes: &[u8], start: usize, loc: &Location) -> Error {
+    let line = e.position().map(|p| p.line()).unwrap_or_else(|| text::line_of(bytes, start));
+    Error::input_hint(loc.at_line(line), format!("the file cannot be read as delimited text: {e}"), "check quoting on this line")
+}
+
+/// Column indices of the outcome, factors and id in the header.
+struct Columns {
+    outcome: usize,
+    factors: Vec<usize>,
+    id: Option<usize>,
+}
+
+impl Columns {
+    fn locate(header: &[String], spec: &DataSpec, loc: &Location, delimiter: u8) -> Result<Columns> {
+        for (i, name) in header.iter().enumerate() {
+            if !name.is_empty() && header[..i].contains(name) {
+                return Err(Error::input_hint(
+                    loc.clone(),
+                    format!("column name `{name}` appears twice in the header"),
+                    "give every column a distinct name",
+                ));
+            }
+        }
+        let find = |name: &str, role: &str| -> Result<usize> {
+            header.iter().position(|h| h == name.trim()).ok_or_else(|| {
+                let listing: Vec<String> = header.iter().filter(|h| !h.is_empty()).map(|h| format!("`{h}`")).collect();
+                let close = header.iter().find(|h| h.to_lowercase() == name.trim().to_lowercase());
+                let hint = match close {
+                    Some(c) => format!("did you mean `{c}`? The columns are {}", listing.join(", ")),
+                    None => format!(
+                        "the columns are {} (fields split by {})",
+                        listing.join(", "),
+                        text::delimiter_name(delimiter)
+                    ),
+                };
+                Error::input_hint(loc.clone(), format!("there is no {role} column `{name}`"), hint)
+            })
+        };
+        let outcome = find(&spec.outcome, "outcome")?;
+        let factors = spec.factors.iter().map(|f| find(f, "factor")).collect::<Result<Vec<_>>>()?;
+        let id = match &spec.id {
+            Some(id) => Some(find(id, "id")?),
+            None => None,
+        };
+        Ok(Columns { outcome, factors, id })
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::config::{Delimiter, Source};
+
+    fn spec(factors: &[&str]) -> DataSpec {
+        DataSpec {
+            source: Source::Stdin,
+            outcome: "y".into(),
+            factors: factors.iter().map(|s| s.to_string()).collect(),
+            id: None,
+            missing: DataSpec::default_missing(),
+            delimiter: Delimiter::Auto,
+            decimal_comma: false,
+            levels: vec![],
+            measured: vec![],
+        }
+    }
+
+    fn run(text: &str, spec: &DataSpec) -> Result<Observations> {
+        parse(text.as_bytes(), spec, "t.csv", &Location::file("t.csv"))
+    }
+
+    #[test]
+    fn reads_rows_with_lines_and_drops_missing() {
+        let text = "y,a\r\n1.5,x\r\nNA,y\r\n\r\n2,\r\n3,y\r\n";
+        let obs = run(text, &spec(&["a"])).unwrap();
+        assert_eq!(obs.rows_read, 4);
+        assert_eq!(obs.lines, vec![2, 6]);
+        assert_eq!(obs.dropped.len(), 2);
+        assert_eq!(obs.dropped[0], Dropped { line: 3, reason: "missing outcome `y`".into() });
+        assert_eq!(obs.dropped[1].line, 5);
+        assert_eq!(obs.factors[0].labels, vec!["x", "y"]);
+        let values: Vec<f64> = obs.y.iter().map(|v| v + obs.location).collect();
+        assert_eq!(values, vec![1.5, 3.0]);
+    }
+
+    #[test]
+    fn quoted_multiline_fields_keep_line_numbers() {
+        let text = "y,a\n1,\"x\ny\"\n2,z\n";
+        let obs = run(text, &spec(&["a"])).unwrap();
+        assert_eq!(obs.lines, vec![2, 4]);
+    }
+
+    #[test]
+    fn errors_name_line_and_column() {
+        let e = run("y,a\n1,x\n7;5,y\n", &spec(&["a"])).unwrap_err();
+        assert_eq!(e.exit_code(), 2);
+        let msg = e.to_string();
+        assert!(msg.contains("line 3") && msg.contains("column `y`"), "{msg}");
+
+        let e = run("y,a\n1,x\n2,y,3\n", &spec(&["a"])).unwrap_err();
+        assert!(e.to_string().contains("line 3") && e.to_string().contains("3 fields"), "{e}");
+
+        let e = run("y,a\n1,x\n", &spec(&["b"])).unwrap_err();
+        assert!(e.to_string().contains("no factor column `b`"), "{e}");
+
+        let e = run("y,a,a\n1,x,x\n", &spec(&["a"])).unwrap_err();
+        assert!(e.to_string().contains("appears twice"), "{e}");
+
+        let e = run("y,a\ninf,x\n", &spec(&["a"])).unwrap_err();
+        assert!(e.to_string().contains("line 2"), "{e}");
+        let e = run("y,a\n1e400,x\n", &spec(&["a"])).unwrap_err();
+        assert!(e.to_string().contains("too large"), "{e}");
+    }
+
+    #[test]
+    fn repeated_id_is_an_input_error() {
+        let mut s = spec(&["a"]);
+        s.id = Some("pid".into());
+        let e = run("pid,y,a\n7,1,x\n8,2,y\n7,3,y\n", &s).unwrap_err();
+        assert_eq!(e.exit_code(), 2);
+        assert!(e.to_string().contains("line 4") && e.to_string().contains("line 2"), "{e}");
+    }
+
+    #[test]
+    fn option_errors() {
+        assert!(run("y,a\n1,x\n", &spec(&[])).is_err());
+        assert!(run("y,a\n1,x\n", &spec(&["y"])).is_err());
+        assert!(run("y,a:b\n1,x\n", &spec(&["a:b"])).is_err());
+        assert!(run("y,a\n1,x\n", &spec(&["a", "a"])).is_err());
+        assert!(run("y,a\n", &spec(&["a"])).is_err());
+        assert!(run("y,a\nNA,x\n", &spec(&["a"])).is_err());
+    }
+
+    #[test]
+    fn decimal_comma_with_semicolons() {
+        let mut s = spec(&["a"]);
+        s.decimal_comma = true;
+        let obs = run("y;a\n7,5;x\n8;y\n", &s).unwrap();
+        let values: Vec<f64> = obs.y.iter().map(|v| v + obs.location).collect();
+        assert_eq!(values, vec![7.5, 8.0]);
+    }
+}

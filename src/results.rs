@@ -1,0 +1,456 @@
+//! The results: plain `Serialize` structs that are the `quorum.results/1` JSON contract.
+//!
+//! Field names follow DESIGN.md "results.json (the contract)"; later issues may add
+//! fields but never rename these. A value that does not exist is `None` (JSON `null`):
+//! numbers pass through [`finite`] so that a NaN or infinity never reaches the output.
+//! Renderers read these structs and never compute statistics.
+
+use serde::Serialize;
+use std::collections::BTreeMap;
+
+/// The schema id written at the top of every results object.
+pub const SCHEMA: &str = "quorum.results/1";
+
+/// `Some(x)` when x is finite, else `None`: the only way numbers enter the results.
+pub fn finite(x: f64) -> Option<f64> {
+    x.is_finite().then_some(x)
+}
+
+/// The whole analysis: what `--format json` prints and `results.json` holds.
+#[derive(Debug, Clone, Serialize)]
+pub struct Analysis {
+    /// Always [`SCHEMA`].
+    pub schema: &'static str,
+    /// What was read.
+    pub input: InputSummary,
+    /// Factors, levels and the cell table.
+    pub design: DesignSummary,
+    /// Assumption checks and flags.
+    pub diagnostics: Diagnostics,
+    /// Each engine's result for every term.
+    pub engines: Vec<EngineResult>,
+    /// Per-term verdict across engines.
+    pub concordance: Vec<Concordance>,
+    /// Reruns without far-out points (descriptive).
+    pub sensitivity: Vec<Sensitivity>,
+    /// Simple effects and pairwise comparisons.
+    pub followup: Vec<Followup>,
+    /// Version, seed, threads and command.
+    pub reproducibility: Reproducibility,
+}
+
+/// What was read from the input.
+#[derive(Debug, Clone, Serialize)]
+pub struct InputSummary {
+    /// The input as named on the command line (`<stdin>` for standard input).
+    pub path: String,
+    /// Data rows in the file (excluding header and blank lines).
+    pub rows_read: usize,
+    /// Rows in the analysis.
+    pub rows_used: usize,
+    /// Rows left out, with their input lines and reasons.
+    pub dropped: Vec<crate::data::Dropped>,
+}
+
+/// A factor and its levels in analysis order.
+#[derive(Debug, Clone, Serialize)]
+pub struct FactorSummary {
+    /// Column name.
+    pub name: String,
+    /// Level labels in analysis order.
+    pub levels: Vec<String>,
+    /// Measured (not manipulated): marked with `--measured`.
+    pub measured: bool,
+}
+
+/// Shapiro–Wilk W and p.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct ShapiroWilk {
+    /// W statistic.
+    #[serde(rename = "W")]
+    pub w: f64,
+    /// p-value (Royston 1995).
+    pub p: f64,
+}
+
+/// An interval with its level.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct Interval {
+    /// Lower end, outcome units.
+    pub low: Option<f64>,
+    /// Upper end, outcome units.
+    pub high: Option<f64>,
+    /// Confidence level, e.g. 0.95.
+    pub level: f64,
+}
+
+/// One row of the cell table (all location and spread values in outcome units).
+#[derive(Debug, Clone, Serialize)]
+pub struct CellSummary {
+    /// Level of each factor, in factor order.
+    pub levels: Vec<String>,
+    /// Observations in the cell.
+    pub n: usize,
+    /// Arithmetic mean.
+    pub mean: f64,
+    /// Standard deviation (n − 1 denominator); null for n = 1.
+    pub sd: Option<f64>,
+    /// Standard error of the mean sd/√n; null for n = 1.
+    pub se: Option<f64>,
+    /// Classical t interval for the mean from the cell's own sd (df n − 1); null for n = 1.
+    pub mean_ci: Option<Interval>,
+    /// Median (mean of the two middle values for even n).
+    pub median: f64,
+    /// Trimmed mean with proportion `trim` cut from each end (g = ⌊trim·n⌋).
+    pub trimmed_mean: f64,
+    /// Trimming proportion used for `trimmed_mean` and `winsorized_sd`.
+    pub trim: f64,
+    /// Winsorized standard deviation (same g, n − 1 denominator); null for n = 1.
+    pub winsorized_sd: Option<f64>,
+    /// Bias-adjusted skewness G1 (Joanes & Gill 1998); null for n < 3 or a constant cell.
+    pub skewness: Option<f64>,
+    /// Standard error of G1 under normality; null for n < 3.
+    pub skewness_se: Option<f64>,
+    /// Bias-adjusted excess kurtosis G2; null for n < 4 or a constant cell.
+    pub excess_kurtosis: Option<f64>,
+    /// Standard error of G2 under normality; null for n < 4.
+    pub excess_kurtosis_se: Option<f64>,
+    /// Smallest value.
+    pub min: f64,
+    /// Largest value.
+    pub max: f64,
+    /// Shapiro–Wilk test in the cell; null where not computed or not applicable.
+    pub shapiro_wilk: Option<ShapiroWilk>,
+}
+
+/// A marginal mean of one level of one factor.
+#[derive(Debug, Clone, Serialize)]
+pub struct MarginalMean {
+    /// Factor name.
+    pub factor: String,
+    /// Level label.
+    pub level: String,
+    /// Observations at this level.
+    pub n: usize,
+    /// Unweighted: the plain average of the cell means at this level (what Type III tests).
+    pub unweighted_mean: f64,
+    /// t interval for the unweighted mean, pooled error (df N − C).
+    pub unweighted_ci: Option<Interval>,
+    /// Weighted: the mean of all observations at this level.
+    pub weighted_mean: f64,
+    /// t interval for the weighted mean, pooled error (df N − C).
+    pub weighted_ci: Option<Interval>,
+}
+
+/// Factors, levels and the cell table.
+#[derive(Debug, Clone, Serialize)]
+pub struct DesignSummary {
+    /// Outcome column.
+    pub outcome: String,
+    /// Factors in `--factors` order.
+    pub factors: Vec<FactorSummary>,
+    /// Every cell has the same n.
+    pub balanced: bool,
+    /// Cells in row-major order (last factor fastest).
+    pub cells: Vec<CellSummary>,
+    /// Marginal means of every level of every factor.
+    pub marginal_means: Vec<MarginalMean>,
+}
+
+/// A test with an F statistic.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct FTest {
+    /// Statistic.
+    #[serde(rename = "F")]
+    pub f: f64,
+    /// Numerator df.
+    pub df1: f64,
+    /// Denominator df.
+    pub df2: f64,
+    /// p-value.
+    pub p: f64,
+}
+
+/// An outlier flagged by a rule, pointing back into the input file.
+#[derive(Debug, Clone, Serialize)]
+pub struct Outlier {
+    /// 1-based input line.
+    pub line: u64,
+    /// Cell name, e.g. `A=a1, B=b2`.
+    pub cell: String,
+    /// The value (outcome units).
+    pub value: f64,
+    /// Rule id, e.g. `tukey-1.5`, `tukey-3`, `mad-median`.
+    pub rule: String,
+}
+
+/// A finding in plain words with a stable code (catalogue in DEVELOPERS.md).
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct Flag {
+    /// Stable machine-readable code.
+    pub code: String,
+    /// Plain-language message.
+    pub message: String,
+}
+
+/// Assumption checks.
+#[derive(Debug, Clone, Serialize)]
+pub struct Diagnostics {
+    /// Levene's test (mean-centred).
+    pub levene: Option<FTest>,
+    /// Brown–Forsythe test (median-centred).
+    pub brown_forsythe: Option<FTest>,
+    /// Shapiro–Wilk on the full-model residuals.
+    pub shapiro_wilk: Option<ShapiroWilk>,
+    /// Outliers by rule.
+    pub outliers: Vec<Outlier>,
+    /// Largest over smallest cell variance; null when a cell has no variance.
+    pub variance_ratio: Option<f64>,
+    /// Largest over smallest cell size.
+    pub n_ratio: f64,
+    /// Findings.
+    pub flags: Vec<Flag>,
+}
+
+/// Decision of one engine on one term.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "lowercase")]
+pub enum Decision {
+    /// p < α.
+    Reject,
+    /// p ≥ α.
+    Retain,
+    /// A resampled p whose Monte Carlo interval contains α.
+    Undetermined,
+}
+
+impl Decision {
+    /// Reject when p < α, else retain.
+    pub fn from_p(p: f64, alpha: f64) -> Decision {
+        if p < alpha {
+            Decision::Reject
+        } else {
+            Decision::Retain
+        }
+    }
+}
+
+/// Monte Carlo details of a resampled p-value.
+#[derive(Debug, Clone, Serialize)]
+pub struct MonteCarlo {
+    /// Resamples drawn (or rearrangements enumerated when `exact`).
+    pub resamples: u64,
+    /// Resampled statistics at least as large as the observed one.
+    pub exceedances: u64,
+    /// Monte Carlo standard error of p.
+    pub se: f64,
+    /// Lower end of the 99% Clopper–Pearson interval of p.
+    pub ci_low: f64,
+    /// Upper end of the 99% Clopper–Pearson interval of p.
+    pub ci_high: f64,
+    /// All distinct rearrangements were enumerated.
+    pub exact: bool,
+    /// Resampling scheme, e.g. `freedman-lane`.
+    pub scheme: String,
+}
+
+/// An effect size with its interval.
+#[derive(Debug, Clone, Serialize)]
+pub struct Effect {
+    /// Name, e.g. `partial_eta_squared`.
+    pub name: String,
+    /// Point estimate.
+    pub value: Option<f64>,
+    /// Lower end of the interval.
+    pub ci_low: Option<f64>,
+    /// Upper end of the interval.
+    pub ci_high: Option<f64>,
+    /// Confidence level of the interval (null when there is none).
+    pub ci_level: Option<f64>,
+}
+
+impl Effect {
+    /// A point estimate without an interval.
+    pub fn point(name: &str, value: f64) -> Effect {
+        Effect { name: name.into(), value: finite(value), ci_low: None, ci_high: None, ci_level: None }
+    }
+}
+
+/// One engine's result on one term.
+#[derive(Debug, Clone, Serialize)]
+pub struct TermResult {
+    /// Term id (`A`, `A:B`).
+    pub term: String,
+    /// Test statistic.
+    pub statistic: Option<f64>,
+    /// Numerator df.
+    pub df1: Option<f64>,
+    /// Denominator df.
+    pub df2: Option<f64>,
+    /// p-value.
+    pub p: Option<f64>,
+    /// Decision at α; null when not applicable.
+    pub decision: Option<Decision>,
+    /// Monte Carlo details for resampling engines.
+    pub mc: Option<MonteCarlo>,
+    /// The headline effect size.
+    pub effect: Option<Effect>,
+    /// Every effect size the engine reports.
+    pub effects: Vec<Effect>,
+    /// Why the engine cannot run on this term, when it cannot.
+    pub not_applicable: Option<String>,
+    /// Remarks for the reader.
+    pub notes: Vec<String>,
+}
+
+impl TermResult {
+    /// A term the engine cannot test, with the reason.
+    pub fn not_applicable(term: &str, reason: impl Into<String>) -> TermResult {
+        TermResult {
+            term: term.into(),
+            statistic: None,
+            df1: None,
+            df2: None,
+            p: None,
+            decision: None,
+            mc: None,
+            effect: None,
+            effects: Vec::new(),
+            not_applicable: Some(reason.into()),
+            notes: Vec::new(),
+        }
+    }
+}
+
+/// A row of an ANOVA table.
+#[derive(Debug, Clone, Serialize)]
+pub struct AnovaRow {
+    /// Term id, `Residual` or `Total`.
+    pub source: String,
+    /// Sum of squares.
+    pub ss: f64,
+    /// Degrees of freedom.
+    pub df: usize,
+    /// Mean square SS/df (null for the total).
+    pub ms: Option<f64>,
+    /// F (terms only).
+    #[serde(rename = "F")]
+    pub f: Option<f64>,
+    /// p-value (terms only).
+    pub p: Option<f64>,
+}
+
+/// The classical engine's ANOVA table for the reported SS type.
+#[derive(Debug, Clone, Serialize)]
+pub struct AnovaTable {
+    /// 1, 2 or 3.
+    pub ss_type: u8,
+    /// Terms in canonical order, then `Residual` and `Total` (corrected).
+    pub rows: Vec<AnovaRow>,
+}
+
+/// Engine-specific details beyond the per-term results.
+#[derive(Debug, Clone, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Details {
+    /// The classical engine's ANOVA table (for `--ss`) and, when that is not Type III,
+    /// the term results of the requested type.
+    Classical {
+        /// ANOVA table of the reported SS type.
+        anova: AnovaTable,
+        /// Term results under `--ss 1|2` (the `terms` list always holds Type III).
+        reported_terms: Option<Vec<TermResult>>,
+    },
+}
+
+/// One engine's results for every term.
+#[derive(Debug, Clone, Serialize)]
+pub struct EngineResult {
+    /// Engine id, e.g. `classical`.
+    pub engine: String,
+    /// Settings that shaped the result; always includes `ss_type`.
+    pub settings: BTreeMap<String, serde_json::Value>,
+    /// Type III hypothesis of every term, canonical order.
+    pub terms: Vec<TermResult>,
+    /// Engine-specific details.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub details: Option<Details>,
+    /// Remarks that apply to the whole engine.
+    pub notes: Vec<String>,
+}
+
+/// Verdict of one term across engines.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum Verdict {
+    /// Every engine that decided rejects.
+    Holds,
+    /// Every engine that decided retains.
+    NullHolds,
+    /// They disagree.
+    MethodDependent,
+    /// No engine could decide.
+    Undetermined,
+}
+
+/// Concordance row of one term.
+#[derive(Debug, Clone, Serialize)]
+pub struct Concordance {
+    /// Term id.
+    pub term: String,
+    /// Verdict.
+    pub verdict: Verdict,
+    /// Engines whose decision matches the primary engine's (or the majority's).
+    pub agreeing: Vec<String>,
+    /// Engines that decided the other way.
+    pub dissenting: Vec<String>,
+    /// Engines that could not decide.
+    pub undetermined: Vec<String>,
+    /// Engines that could not run on this term.
+    pub not_applicable: Vec<String>,
+    /// The primary engine, when one is chosen.
+    pub primary: Option<String>,
+    /// Why that engine is primary.
+    pub reason: Option<String>,
+}
+
+/// A sensitivity variant: the analysis rerun on modified data (descriptive p-values).
+#[derive(Debug, Clone, Serialize)]
+pub struct Sensitivity {
+    /// Variant id.
+    pub variant: String,
+    /// Rule used to remove points.
+    pub rule: String,
+    /// Input lines removed.
+    pub rows_removed: Vec<u64>,
+    /// Engine results on the modified data.
+    pub engines: Vec<EngineResult>,
+    /// Verdicts on the modified data.
+    pub concordance: Vec<Concordance>,
+}
+
+/// Follow-up tests of one effect.
+#[derive(Debug, Clone, Serialize)]
+pub struct Followup {
+    /// Effect probed.
+    pub effect: String,
+    /// Conditioning factors.
+    pub at: Vec<String>,
+    /// Simple-effect tests.
+    pub tests: Vec<serde_json::Value>,
+    /// Pairwise comparisons.
+    pub pairwise: Vec<serde_json::Value>,
+}
+
+/// What it takes to reproduce the numbers.
+#[derive(Debug, Clone, Serialize)]
+pub struct Reproducibility {
+    /// quorum version.
+    pub version: String,
+    /// Seed of every random stream.
+    pub seed: u64,
+    /// Worker threads used (never changes a result).
+    pub threads: usize,
+    /// The command as typed.
+    pub command: String,
+}

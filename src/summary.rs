@@ -1,0 +1,195 @@
+//! Sample statistics used across quorum: quantiles, medians, trimmed and winsorized
+//! summaries, and bias-adjusted skewness and kurtosis with their standard errors.
+//!
+//! Each function states its convention, because small cells make conventions matter:
+//! quantiles are Hyndman & Fan (1996) type 7 (numpy's default), trimming takes
+//! g = ⌊γ·n⌋ computed as the floor of the double product (as numpy, scipy and
+//! statsmodels do), variances use the n − 1 denominator.
+
+/// Sorted copy of `x` (total order; NaN never occurs in quorum's data).
+pub fn sorted(x: &[f64]) -> Vec<f64> {
+    let mut v = x.to_vec();
+    v.sort_by(f64::total_cmp);
+    v
+}
+
+/// Quantile of sorted data, Hyndman & Fan (1996, The American Statistician 50:361–365)
+/// type 7: h = (n − 1)p + 1, Q = x_(⌊h⌋) + (h − ⌊h⌋)(x_(⌊h⌋+1) − x_(⌊h⌋)).
+/// NaN for empty data or p outside [0, 1].
+pub fn quantile_type7(sorted: &[f64], p: f64) -> f64 {
+    let n = sorted.len();
+    if n == 0 || !(0.0..=1.0).contains(&p) {
+        return f64::NAN;
+    }
+    let h = (n - 1) as f64 * p;
+    let lo = h.floor() as usize;
+    let frac = h - lo as f64;
+    if lo + 1 >= n {
+        sorted[n - 1]
+    } else {
+        sorted[lo] + frac * (sorted[lo + 1] - sorted[lo])
+    }
+}
+
+/// Median of sorted data (mean of the two middle values for even n).
+pub fn median_sorted(sorted: &[f64]) -> f64 {
+    let n = sorted.len();
+    if n == 0 {
+        return f64::NAN;
+    }
+    if n % 2 == 1 {
+        sorted[n / 2]
+    } else {
+        0.5 * (sorted[n / 2 - 1] + sorted[n / 2])
+    }
+}
+
+/// Number trimmed from each end: g = ⌊γ·n⌋, the floor of the IEEE-754 double product
+/// (METHODS §4.1; e.g. 0.29·100 = 28.999… gives 28, as in numpy/scipy/statsmodels).
+pub fn trim_count(gamma: f64, n: usize) -> usize {
+    (gamma * n as f64).floor() as usize
+}
+
+/// Trimmed mean of sorted data: the mean of x_(g+1) … x_(n−g). NaN when nothing is left.
+pub fn trimmed_mean_sorted(sorted: &[f64], gamma: f64) -> f64 {
+    let n = sorted.len();
+    let g = trim_count(gamma, n);
+    if n == 0 || 2 * g >= n {
+        return f64::NAN;
+    }
+    let kept = &sorted[g..n - g];
+    crate::model::mean_two_pass(kept)
+}
+
+/// Winsorized variance of sorted data with the same g as the trimmed mean: x_(i) for
+/// i ≤ g replaced by x_(g+1) and for i > n − g by x_(n−g); denominator n − 1 (Yuen 1974).
+/// NaN for n < 2 or when nothing is left after trimming.
+pub fn winsorized_variance_sorted(sorted: &[f64], gamma: f64) -> f64 {
+    let n = sorted.len();
+    let g = trim_count(gamma, n);
+    if n < 2 || 2 * g >= n {
+        return f64::NAN;
+    }
+    let lo = sorted[g];
+    let hi = sorted[n - g - 1];
+    let w = |x: f64| x.clamp(lo, hi);
+    let mean = crate::model::mean_two_pass(&sorted.iter().map(|&x| w(x)).collect::<Vec<_>>());
+    sorted.iter().map(|&x| (w(x) - mean).powi(2)).sum::<f64>() / (n - 1) as f64
+}
+
+/// Sample variance with n − 1 denominator (two-pass); NaN for n < 2.
+pub fn variance(x: &[f64]) -> f64 {
+    if x.len() < 2 {
+        return f64::NAN;
+    }
+    let m = crate::model::mean_two_pass(x);
+    x.iter().map(|v| (v - m).powi(2)).sum::<f64>() / (x.len() - 1) as f64
+}
+
+/// Central moments m2, m3, m4 with the 1/n divisor.
+fn central_moments(x: &[f64]) -> (f64, f64, f64) {
+    let n = x.len() as f64;
+    let m = crate::model::mean_two_pass(x);
+    let (mut m2, mut m3, mut m4) = (0.0, 0.0, 0.0);
+    for v in x {
+        let d = v - m;
+        let d2 = d * d;
+        m2 += d2;
+        m3 += d2 * d;
+        m4 += d2 * d2;
+    }
+    (m2 / n, m3 / n, m4 / n)
+}
+
+/// Bias-adjusted skewness G1 = g1·√(n(n−1))/(n−2), g1 = m3/m2^{3/2}
+/// (Joanes & Gill 1998, The Statistician 47:183–189; scipy `skew(bias=False)`).
+/// `None` for n < 3 or constant data.
+pub fn skewness(x: &[f64]) -> Option<f64> {
+    let n = x.len();
+    if n < 3 {
+        return None;
+    }
+    let (m2, m3, _) = central_moments(x);
+    if m2 <= 0.0 {
+        return None;
+    }
+    let nf = n as f64;
+    let g1 = m3 / m2.powf(1.5);
+    Some(g1 * (nf * (nf - 1.0)).sqrt() / (nf - 2.0))
+}
+
+/// Bias-adjusted excess kurtosis G2 = [(n+1)g2 + 6](n−1)/((n−2)(n−3)), g2 = m4/m2² − 3
+/// (Joanes & Gill 1998; scipy `kurtosis(bias=False)`). `None` for n < 4 or constant data.
+pub fn excess_kurtosis(x: &[f64]) -> Option<f64> {
+    let n = x.len();
+    if n < 4 {
+        return None;
+    }
+    let (m2, _, m4) = central_moments(x);
+    if m2 <= 0.0 {
+        return None;
+    }
+    let nf = n as f64;
+    let g2 = m4 / (m2 * m2) - 3.0;
+    Some(((nf + 1.0) * g2 + 6.0) * (nf - 1.0) / ((nf - 2.0) * (nf - 3.0)))
+}
+
+/// Standard error of G1 under normality, √(6n(n−1)/((n−2)(n+1)(n+3))) (exact; Joanes &
+/// Gill 1998). `None` for n < 3.
+pub fn skewness_se(n: usize) -> Option<f64> {
+    if n < 3 {
+        return None;
+    }
+    let n = n as f64;
+    Some((6.0 * n * (n - 1.0) / ((n - 2.0) * (n + 1.0) * (n + 3.0))).sqrt())
+}
+
+/// Standard error of G2 under normality, 2·SE_G1·√((n²−1)/((n−3)(n+5))). `None` for n < 4.
+pub fn excess_kurtosis_se(n: usize) -> Option<f64> {
+    if n < 4 {
+        return None;
+    }
+    let se1 = skewness_se(n)?;
+    let nf = n as f64;
+    Some(2.0 * se1 * ((nf * nf - 1.0) / ((nf - 3.0) * (nf + 5.0))).sqrt())
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn type7_quantiles_match_numpy_linear() {
+        // numpy.percentile([9.6, 10.2, 9.9, 10.0, 9.2], [25, 75]) = [9.6, 10.0] (METHODS §12.1, cell a1b1).
+        let s = sorted(&[9.6, 10.2, 9.9, 10.0, 9.2]);
+        assert_eq!(quantile_type7(&s, 0.25), 9.6);
+        assert_eq!(quantile_type7(&s, 0.75), 10.0);
+        assert_eq!(median_sorted(&s), 9.9);
+    }
+
+    #[test]
+    fn trim_count_uses_the_double_product() {
+        // METHODS §4.1: 0.29·100 = 28.999… → 28.
+        assert_eq!(trim_count(0.29, 100), 28);
+        assert_eq!(trim_count(0.2, 5), 1);
+        assert_eq!(trim_count(0.2, 4), 0);
+    }
+
+    #[test]
+    fn standard_errors_at_n_5() {
+        // METHODS §12.1: n = 5: SE_G1 = 0.9128709292, SE_G2 = 2.0.
+        assert!((skewness_se(5).unwrap() - 0.9128709292).abs() < 1e-10);
+        assert!((excess_kurtosis_se(5).unwrap() - 2.0).abs() < 1e-12);
+        assert_eq!(skewness_se(2), None);
+        assert_eq!(excess_kurtosis_se(3), None);
+    }
+
+    #[test]
+    fn degenerate_inputs_give_none_or_nan() {
+        assert_eq!(skewness(&[1.0, 1.0, 1.0]), None);
+        assert_eq!(excess_kurtosis(&[1.0, 2.0, 3.0]), None);
+        assert!(quantile_type7(&[], 0.5).is_nan());
+        assert!(trimmed_mean_sorted(&[], 0.2).is_nan());
+        assert!(winsorized_variance_sorted(&[1.0], 0.2).is_nan());
+    }
+}

@@ -85,7 +85,7 @@ fn thread_pool(threads: Option<usize>) -> Result<rayon::ThreadPool> {
     if let Some(t) = threads {
         builder = builder.num_threads(t);
     }
-    builder
-        .build()
-        .map_err(|e| Error::usage(format!("cannot start {} worker threads: {e}", threads.unwrap_or(0)), "use fewer --threads"))
+    builder.build().map_err(|e| {
+        Error::usage(format!("cannot start {} worker threads: {e}", threads.unwrap_or(0)), "use fewer --threads")
+    })
 }

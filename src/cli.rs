@@ -209,12 +209,20 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         return Err(Error::usage(format!("--alpha {} is not between 0 and 1", e.alpha), "the usual value is 0.05"));
     }
     if !in_open_unit(e.ci_level) {
-        return Err(Error::usage(format!("--ci-level {} is not between 0 and 1", e.ci_level), "the usual value is 0.95"));
+        return Err(Error::usage(
+            format!("--ci-level {} is not between 0 and 1", e.ci_level),
+            "the usual value is 0.95",
+        ));
     }
     if !(0.0..0.5).contains(&e.trim) {
-        return Err(Error::usage(format!("--trim {} is outside [0, 0.5)", e.trim), "the usual value is 0.2; 0 gives untrimmed means"));
+        return Err(Error::usage(
+            format!("--trim {} is outside [0, 0.5)", e.trim),
+            "the usual value is 0.2; 0 gives untrimmed means",
+        ));
     }
-    for (name, v) in [("--permutations", e.permutations), ("--resamples", e.resamples), ("--max-permutations", e.max_permutations)] {
+    for (name, v) in
+        [("--permutations", e.permutations), ("--resamples", e.resamples), ("--max-permutations", e.max_permutations)]
+    {
         if v == 0 || v >= 1 << 62 {
             return Err(Error::usage(format!("{name} {v} is out of range"), "give a positive count, e.g. 4999"));
         }
@@ -258,11 +266,17 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
 
 fn parse_levels(arg: &str) -> Result<(String, Vec<String>)> {
     let Some((factor, list)) = arg.split_once('=') else {
-        return Err(Error::usage(format!("--levels `{arg}` has no `=`"), "write it as --levels FACTOR=level1,level2,..."));
+        return Err(Error::usage(
+            format!("--levels `{arg}` has no `=`"),
+            "write it as --levels FACTOR=level1,level2,...",
+        ));
     };
     let levels: Vec<String> = list.split(',').map(str::to_string).collect();
     if levels.len() < 2 {
-        return Err(Error::usage(format!("--levels `{arg}` lists fewer than two levels"), "list every level of the factor in order"));
+        return Err(Error::usage(
+            format!("--levels `{arg}` lists fewer than two levels"),
+            "list every level of the factor in order",
+        ));
     }
     Ok((factor.trim().to_string(), levels))
 }
@@ -273,7 +287,12 @@ fn parse_delimiter(arg: &str) -> Result<Delimiter> {
         "comma" | "," => Delimiter::Byte(b','),
         "tab" | "\\t" | "\t" => Delimiter::Byte(b'\t'),
         "semicolon" | ";" => Delimiter::Byte(b';'),
-        other if other.len() == 1 && other.is_ascii() && !other.as_bytes()[0].is_ascii_alphanumeric() && other != "\"" => {
+        other
+            if other.len() == 1
+                && other.is_ascii()
+                && !other.as_bytes()[0].is_ascii_alphanumeric()
+                && other != "\"" =>
+        {
             Delimiter::Byte(other.as_bytes()[0])
         }
         other => {

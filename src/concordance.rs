@@ -16,7 +16,9 @@ pub fn verdicts(terms: &[String], engines: &[EngineResult]) -> Vec<Concordance> 
             let mut undetermined = Vec::new();
             let mut not_applicable = Vec::new();
             for e in engines {
-                let Some(r) = e.terms.iter().find(|r| &r.term == term) else { continue };
+                let Some(r) = e.terms.iter().find(|r| &r.term == term) else {
+                    continue;
+                };
                 match r.decision {
                     Some(Decision::Reject) => reject.push(e.engine.clone()),
                     Some(Decision::Retain) => retain.push(e.engine.clone()),
@@ -32,8 +34,7 @@ pub fn verdicts(terms: &[String], engines: &[EngineResult]) -> Vec<Concordance> 
             };
             // Without a primary engine, "agreeing" are the engines on the majority side
             // (rejecting on a tie), "dissenting" the others.
-            let (agreeing, dissenting) =
-                if reject.len() >= retain.len() { (reject, retain) } else { (retain, reject) };
+            let (agreeing, dissenting) = if reject.len() >= retain.len() { (reject, retain) } else { (retain, reject) };
             Concordance {
                 term: term.clone(),
                 verdict,

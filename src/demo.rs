@@ -23,10 +23,7 @@ pub fn field_trial_spec() -> DataSpec {
         missing: DataSpec::default_missing(),
         delimiter: Delimiter::Auto,
         decimal_comma: false,
-        levels: vec![(
-            "irrigation".into(),
-            vec!["daily".into(), "every-2-days".into(), "weekly".into()],
-        )],
+        levels: vec![("irrigation".into(), vec!["daily".into(), "every-2-days".into(), "weekly".into()])],
         measured: vec![],
     }
 }

@@ -86,11 +86,7 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
     let start = text::check_text(bytes, loc)?;
     let body = &bytes[start..];
     let delimiter = text::detect_delimiter(body, spec.delimiter, spec.decimal_comma, loc)?;
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .delimiter(delimiter)
-        .from_reader(body);
+    let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).delimiter(delimiter).from_reader(body);
 
     let mut record = csv::ByteRecord::new();
     let mut lines_of = text::LineCounter::new(body, 1);
@@ -100,7 +96,11 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
             Ok(true) if is_blank(&record) => continue,
             Ok(true) => break header_names(&record),
             Ok(false) => {
-                return Err(Error::input_hint(loc.clone(), "the file has no header line", "the first line must name the columns"))
+                return Err(Error::input_hint(
+                    loc.clone(),
+                    "the file has no header line",
+                    "the first line must name the columns",
+                ))
             }
             Err(e) => return Err(csv_error(e, bytes, start, loc)),
         }
@@ -225,14 +225,19 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
 fn check_spec(spec: &DataSpec) -> Result<()> {
     if spec.factors.is_empty() || spec.factors.len() > MAX_FACTORS {
         return Err(Error::usage(
-            format!("{} factors were named; quorum analyses designs with 1 to {MAX_FACTORS} factors", spec.factors.len()),
+            format!(
+                "{} factors were named; quorum analyses designs with 1 to {MAX_FACTORS} factors",
+                spec.factors.len()
+            ),
             "name the factors with --factors A,B,...",
         ));
     }
     for f in &spec.factors {
         if f.contains(':') {
             return Err(Error::usage(
-                format!("factor name `{f}` contains `:`, which quorum uses to join factor names into interaction terms"),
+                format!(
+                    "factor name `{f}` contains `:`, which quorum uses to join factor names into interaction terms"
+                ),
                 "rename the column in the file",
             ));
         }
@@ -250,7 +255,10 @@ fn check_spec(spec: &DataSpec) -> Result<()> {
     }
     if let Some(id) = &spec.id {
         if *id == spec.outcome || spec.factors.contains(id) {
-            return Err(Error::usage(format!("the id column `{id}` is also the outcome or a factor"), "name a separate participant-id column"));
+            return Err(Error::usage(
+                format!("the id column `{id}` is also the outcome or a factor"),
+                "name a separate participant-id column",
+            ));
         }
     }
     Ok(())
@@ -272,7 +280,11 @@ fn header_names(record: &csv::ByteRecord) -> Vec<String> {
 
 fn csv_error(e: csv::Error, bytes: &[u8], start: usize, loc: &Location) -> Error {
     let line = e.position().map(|p| p.line()).unwrap_or_else(|| text::line_of(bytes, start));
-    Error::input_hint(loc.at_line(line), format!("the file cannot be read as delimited text: {e}"), "check quoting on this line")
+    Error::input_hint(
+        loc.at_line(line),
+        format!("the file cannot be read as delimited text: {e}"),
+        "check quoting on this line",
+    )
 }
 
 /// Column indices of the outcome, factors and id in the header.
@@ -298,7 +310,9 @@ impl Columns {
                 let listing: Vec<String> = header.iter().filter(|h| !h.is_empty()).map(|h| format!("`{h}`")).collect();
                 let close = header.iter().find(|h| h.to_lowercase() == name.trim().to_lowercase());
                 let hint = match close {
-                    Some(c) => format!("did you mean `{c}`? The columns are {}", listing.join(", ")),
+                    Some(c) => {
+                        format!("did you mean `{c}`? The columns are {}", listing.join(", "))
+                    }
                     None => format!(
                         "the columns are {} (fields split by {})",
                         listing.join(", "),

@@ -43,16 +43,16 @@ impl NumberProblem {
             ),
             NumberProblem::NotFinite => (
                 format!("`{shown}` is not a finite number"),
-                "infinite values cannot be analysed; mark missing values with one of the --missing tokens instead".into(),
+                "infinite values cannot be analysed; mark missing values with one of the --missing tokens instead"
+                    .into(),
             ),
             NumberProblem::Overflow => (
                 format!("`{shown}` is too large to represent (beyond ±1.8e308)"),
                 "check the value; rescale the outcome if it is real".into(),
             ),
-            NumberProblem::DecimalCommaWithoutFlag => (
-                format!("`{shown}` is not a number"),
-                "use --decimal-comma if the file uses decimal commas".into(),
-            ),
+            NumberProblem::DecimalCommaWithoutFlag => {
+                (format!("`{shown}` is not a number"), "use --decimal-comma if the file uses decimal commas".into())
+            }
             NumberProblem::PointWithDecimalComma => (
                 format!("`{shown}` has a decimal point, but --decimal-comma was given"),
                 "use one decimal mark throughout the file, or drop --decimal-comma".into(),
@@ -234,8 +234,8 @@ fn sub_exact(a: Decimal, b: Decimal) -> Option<Decimal> {
 /// The decimal as the nearest double (correctly rounded).
 pub fn to_f64(d: Decimal) -> f64 {
     const EXACT_POW10: [f64; 23] = [
-        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18,
-        1e19, 1e20, 1e21, 1e22,
+        1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19,
+        1e20, 1e21, 1e22,
     ];
     const TWO53: i128 = 1 << 53;
     if d.mant == 0 {

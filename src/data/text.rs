@@ -75,7 +75,11 @@ impl<'a> LineCounter<'a> {
 /// Empty input, UTF-16/32 text, NUL bytes, or invalid UTF-8, each with the line.
 pub fn check_text(bytes: &[u8], loc: &Location) -> Result<usize> {
     if bytes.iter().all(|b| b.is_ascii_whitespace()) {
-        return Err(Error::input_hint(loc.clone(), "the file is empty", "give a file with a header line and data rows"));
+        return Err(Error::input_hint(
+            loc.clone(),
+            "the file is empty",
+            "give a file with a header line and data rows",
+        ));
     }
     if bytes.starts_with(&[0xFF, 0xFE]) || bytes.starts_with(&[0xFE, 0xFF]) {
         return Err(Error::input_hint(
@@ -105,11 +109,7 @@ pub fn check_text(bytes: &[u8], loc: &Location) -> Result<usize> {
 
 /// Field counts of the first records when split by `delim` (quotes respected).
 fn field_counts(text: &[u8], delim: u8, max_records: usize) -> Vec<usize> {
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .delimiter(delim)
-        .from_reader(text);
+    let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).delimiter(delim).from_reader(text);
     let mut counts = Vec::new();
     let mut rec = csv::ByteRecord::new();
     while counts.len() < max_records {
@@ -144,7 +144,9 @@ pub fn detect_delimiter(text: &[u8], requested: Delimiter, decimal_comma: bool, 
     let mut best: Option<(bool, usize, u8)> = None;
     for &d in candidates {
         let counts = field_counts(text, d, 50);
-        let Some(&header) = counts.first() else { continue };
+        let Some(&header) = counts.first() else {
+            continue;
+        };
         let consistent = counts.iter().all(|&c| c == header);
         let key = (consistent && header >= 2, header, d);
         if header >= 2 && best.is_none_or(|b| (key.0, key.1) > (b.0, b.1)) {

@@ -35,7 +35,10 @@ pub enum Strategy {
 #[derive(Debug, Clone)]
 enum TermForm {
     /// Rows of X (q×C, row-major).
-    Dense { q: usize, x: Vec<f64> },
+    Dense {
+        q: usize,
+        x: Vec<f64>,
+    },
     MatrixFree,
 }
 
@@ -172,7 +175,14 @@ impl SsForms {
             blocks.push((a, at, inv));
         }
         let sizes: Vec<usize> = blocks.iter().map(|(a, _, _)| a.iter().map(|m| m.cols).product()).collect();
-        let offsets: Vec<usize> = sizes.iter().scan(0, |acc, &k| { let o = *acc; *acc += k; Some(o) }).collect();
+        let offsets: Vec<usize> = sizes
+            .iter()
+            .scan(0, |acc, &k| {
+                let o = *acc;
+                *acc += k;
+                Some(o)
+            })
+            .collect();
         let total: usize = sizes.iter().sum();
         let apply_a = |beta: &[f64]| -> Vec<f64> {
             let mut out = vec![0.0; s.len()];
@@ -302,8 +312,7 @@ fn to_dmatrix(m: &Small) -> DMatrix<f64> {
 }
 
 fn dense_term_matrix(shape: &[usize], term: &[usize], hypothesis: bool) -> DMatrix<f64> {
-    let blocks =
-        if hypothesis { kron::hypothesis_blocks(shape, term) } else { kron::coding_blocks(shape, term) };
+    let blocks = if hypothesis { kron::hypothesis_blocks(shape, term) } else { kron::coding_blocks(shape, term) };
     to_dmatrix(&kron::kron_dense(&kron::refs(&blocks)))
 }
 
@@ -354,10 +363,7 @@ fn dense_residualized(shape: &[usize], term: &[usize], nuisance: &[Vec<usize>], 
     let d_resid = DMatrix::from_fn(c, resid.ncols(), |i, j| n[i] * resid[(i, j)]);
     let r_gram = resid.transpose() * d_resid;
     let r_chol = r_gram.cholesky().ok_or_else(|| not_positive_definite("Ã'DÃ"))?;
-    let x = r_chol
-        .l()
-        .solve_lower_triangular(&resid.transpose())
-        .ok_or_else(|| not_positive_definite("Ã'DÃ"))?;
+    let x = r_chol.l().solve_lower_triangular(&resid.transpose()).ok_or_else(|| not_positive_definite("Ã'DÃ"))?;
     Ok(row_major(&x))
 }
 

@@ -235,8 +235,7 @@ impl Design {
         let mut next = cell_start[..cells].to_vec();
         let mut y = vec![0.0; n_obs];
         let mut lines = vec![0u64; n_obs];
-        for i in 0..n_obs {
-            let c = cell_of[i];
+        for (i, &c) in cell_of.iter().enumerate() {
             y[next[c]] = obs.y[i];
             lines[next[c]] = obs.lines[i];
             next[c] += 1;
@@ -252,7 +251,11 @@ impl Design {
     pub fn from_cells(outcome: &str, factors: Vec<Factor>, cells: &[Vec<f64>]) -> Result<Design> {
         let layout = Layout::new(factors);
         if cells.len() != layout.n_cells() {
-            return Err(Error::impossible(format!("{} cells given for a design with {}", cells.len(), layout.n_cells())));
+            return Err(Error::impossible(format!(
+                "{} cells given for a design with {}",
+                cells.len(),
+                layout.n_cells()
+            )));
         }
         if let Some(c) = cells.iter().position(Vec::is_empty) {
             return Err(Error::impossible(format!("empty cell ({})", layout.cell_name(c))));
@@ -456,7 +459,11 @@ mod tests {
 
     #[test]
     fn terms_are_in_canonical_order() {
-        let f = |n: &str, a: usize| Factor { name: n.into(), levels: (0..a).map(|i| i.to_string()).collect(), measured: false };
+        let f = |n: &str, a: usize| Factor {
+            name: n.into(),
+            levels: (0..a).map(|i| i.to_string()).collect(),
+            measured: false,
+        };
         let layout = Layout::new(vec![f("A", 2), f("B", 3), f("C", 2)]);
         let names: Vec<&str> = layout.terms.iter().map(|t| t.name.as_str()).collect();
         assert_eq!(names, vec!["A", "B", "C", "A:B", "A:C", "B:C", "A:B:C"]);

@@ -11,10 +11,8 @@ use crate::results::{finite, Diagnostics};
 /// The diagnostics of a design: balance summaries now; normality, homogeneity and
 /// outlier rules are added by the diagnostics engine work (METHODS §2).
 pub fn diagnose(design: &Design, fit: &Fit) -> Diagnostics {
-    let vars: Vec<f64> = (0..design.n_cells())
-        .filter(|&c| fit.n[c] >= 2)
-        .map(|c| fit.ss_within[c] / (fit.n[c] - 1) as f64)
-        .collect();
+    let vars: Vec<f64> =
+        (0..design.n_cells()).filter(|&c| fit.n[c] >= 2).map(|c| fit.ss_within[c] / (fit.n[c] - 1) as f64).collect();
     let variance_ratio = if vars.len() >= 2 {
         let max = vars.iter().cloned().fold(f64::NEG_INFINITY, f64::max);
         let min = vars.iter().cloned().fold(f64::INFINITY, f64::min);

@@ -56,7 +56,8 @@ impl Engine for Classical {
             let terms = term_results(ctx, &ss, &dfs, &measured);
             (ss, Some(terms))
         };
-        result.details = Some(Details::Classical { anova: anova_table(ctx, &table_ss, &dfs, settings.ss_type), reported_terms });
+        result.details =
+            Some(Details::Classical { anova: anova_table(ctx, &table_ss, &dfs, settings.ss_type), reported_terms });
         if !design.is_balanced() && settings.ss_type != SsType::Three {
             result.notes.push(format!(
                 "unbalanced design: the Type {} table differs from Type III; verdicts use Type III",

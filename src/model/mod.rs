@@ -111,8 +111,7 @@ pub fn effect_sizes(ss: &[f64], df: &[usize], measured: &[bool], fit: &Fit) -> V
                 partial_eta_sq: s / (s + fit.sse),
                 omega_sq: (s - d * mse) / (fit.sst + mse),
                 partial_omega_sq: (s - d * mse) / (s + (fit.n_total as f64 - d) * mse),
-                generalized_eta_sq: any_measured
-                    .then(|| s / (if m { 0.0 } else { s } + measured_ss + fit.sse)),
+                generalized_eta_sq: any_measured.then(|| s / (if m { 0.0 } else { s } + measured_ss + fit.sse)),
             }
         })
         .collect()

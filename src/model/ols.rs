@@ -13,7 +13,8 @@ use nalgebra::{DMatrix, DVector};
 /// given terms (indices into the design's terms), rows in canonical order.
 pub fn model_matrix(design: &Design, terms: &[usize]) -> DMatrix<f64> {
     let shape = design.shape();
-    let mut blocks: Vec<kron::Small> = vec![kron::Small { rows: design.n_cells(), cols: 1, data: vec![1.0; design.n_cells()] }];
+    let mut blocks: Vec<kron::Small> =
+        vec![kron::Small { rows: design.n_cells(), cols: 1, data: vec![1.0; design.n_cells()] }];
     for &t in terms {
         let cb = kron::coding_blocks(shape, &design.terms()[t].factors);
         blocks.push(kron::kron_dense(&kron::refs(&cb)));

@@ -28,10 +28,7 @@ pub fn prepare(dir: &Path) -> Result<()> {
             ));
         }
         let marker = dir.join(MARKER).exists();
-        let empty = fs::read_dir(dir)
-            .map_err(|e| io_error(dir, "reading the folder", e))?
-            .next()
-            .is_none();
+        let empty = fs::read_dir(dir).map_err(|e| io_error(dir, "reading the folder", e))?.next().is_none();
         if !marker && !empty {
             return Err(Error::usage(
                 format!("the folder `{}` is not empty and was not written by quorum", dir.display()),
@@ -43,7 +40,8 @@ pub fn prepare(dir: &Path) -> Result<()> {
     }
     write_atomic(
         &dir.join(MARKER),
-        format!("This folder was written by quorum {}; quorum may overwrite it.\n", env!("CARGO_PKG_VERSION")).as_bytes(),
+        format!("This folder was written by quorum {}; quorum may overwrite it.\n", env!("CARGO_PKG_VERSION"))
+            .as_bytes(),
         None,
     )
 }
@@ -140,4 +138,3 @@ mod tests {
         assert_eq!(fs::read_to_string(&input).unwrap(), "y,a\n");
     }
 }
-

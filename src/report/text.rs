@@ -3,7 +3,7 @@
 
 use super::table::{num, p_value, Align, Table};
 use super::Render;
-use crate::results::{Analysis, Details, EngineResult, Interval, Verdict};
+use crate::results::{Analysis, Decision, Details, EngineResult, Interval, Verdict};
 use std::io::{self, Write};
 
 /// The plain-text renderer.
@@ -49,14 +49,17 @@ fn header(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
     }
     let ns: Vec<usize> = d.cells.iter().map(|c| c.n).collect();
     let (lo, hi) = (ns.iter().min().copied().unwrap_or(0), ns.iter().max().copied().unwrap_or(0));
-    let balance = if d.balanced { format!("balanced, n = {lo} per cell") } else { format!("unbalanced, n from {lo} to {hi}") };
+    let balance =
+        if d.balanced { format!("balanced, n = {lo} per cell") } else { format!("unbalanced, n from {lo} to {hi}") };
     writeln!(out, "Cells     {} ({balance})", d.cells.len())?;
     writeln!(out)
 }
 
 fn cells(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
     let d = &a.design;
-    let Some(first) = d.cells.first() else { return Ok(()) };
+    let Some(first) = d.cells.first() else {
+        return Ok(());
+    };
     let level = first.mean_ci.map(|i| i.level).unwrap_or(0.95);
     let trim_pct = (first.trim * 100.0).round();
     writeln!(
@@ -105,7 +108,9 @@ fn cells(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
 
 fn marginals(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
     let m = &a.design.marginal_means;
-    let Some(first) = m.first() else { return Ok(()) };
+    let Some(first) = m.first() else {
+        return Ok(());
+    };
     let level = first.unweighted_ci.or(first.weighted_ci).map(|i| i.level).unwrap_or(0.95);
     writeln!(
         out,
@@ -175,7 +180,7 @@ fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
             }
             writeln!(out, "{}", t.render(2))?;
         }
-        None => writeln!(out, "Engine `{}`", e.engine)?,
+        _ => generic_tests(e, out)?,
     }
     let mut t = Table::new(&[
         ("term", Align::Left),
@@ -188,10 +193,14 @@ fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
     let mut any = false;
     for r in &e.terms {
         let get = |name: &str| r.effects.iter().find(|x| x.name == name);
-        let Some(pe) = get("partial_eta_squared") else { continue };
+        let Some(pe) = get("partial_eta_squared") else {
+            continue;
+        };
         any = true;
         let ci = match (pe.ci_low, pe.ci_high, pe.ci_level) {
-            (Some(l), Some(h), Some(lv)) => format!("[{}, {}] {}%", num(Some(l), 3), num(Some(h), 3), (lv * 100.0).round()),
+            (Some(l), Some(h), Some(lv)) => {
+                format!("[{}, {}] {}%", num(Some(l), 3), num(Some(h), 3), (lv * 100.0).round())
+            }
             _ => "—".into(),
         };
         t.row(vec![
@@ -221,6 +230,43 @@ fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
     writeln!(out)
 }
 
+/// The per-term tests of any engine: statistic, df, p, decision and Monte Carlo error.
+fn generic_tests(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
+    writeln!(out, "Engine `{}`", e.engine)?;
+    let mut t = Table::new(&[
+        ("term", Align::Left),
+        ("statistic", Align::Right),
+        ("df1", Align::Right),
+        ("df2", Align::Right),
+        ("p", Align::Right),
+        ("decision", Align::Left),
+        ("Monte Carlo", Align::Left),
+    ]);
+    for r in &e.terms {
+        let decision = match r.decision {
+            Some(Decision::Reject) => "reject",
+            Some(Decision::Retain) => "retain",
+            Some(Decision::Undetermined) => "undetermined",
+            None => "—",
+        };
+        let mc = match &r.mc {
+            Some(m) if m.exact => format!("exact, {} rearrangements", m.resamples),
+            Some(m) => format!("B = {}, 99% CI [{}, {}]", m.resamples, num(Some(m.ci_low), 3), num(Some(m.ci_high), 3)),
+            None => String::new(),
+        };
+        t.row(vec![
+            r.term.clone(),
+            num(r.statistic, 4),
+            num(r.df1, 4),
+            num(r.df2, 4),
+            p_value(r.p),
+            decision.into(),
+            mc,
+        ]);
+    }
+    writeln!(out, "{}", t.render(2))
+}
+
 fn verdicts(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
     if a.concordance.is_empty() {
         return Ok(());
@@ -234,7 +280,13 @@ fn verdicts(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
         ("undetermined", Align::Left),
         ("not applicable", Align::Left),
     ]);
-    let list = |v: &Vec<String>| if v.is_empty() { "—".to_string() } else { v.join(", ") };
+    let list = |v: &Vec<String>| {
+        if v.is_empty() {
+            "—".to_string()
+        } else {
+            v.join(", ")
+        }
+    };
     for c in &a.concordance {
         let verdict = match c.verdict {
             Verdict::Holds => "holds",

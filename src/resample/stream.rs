@@ -169,9 +169,21 @@ mod tests {
     #[test]
     fn derived_states_match_the_vectors() {
         let cases = [
-            (key(Purpose::Permutation, 0, 0, 0), 0x50678b12ce3229b2a2f0d42a8a8957c3u128, 0xedf528c2fb861d433694c362449e717bu128),
-            (key(Purpose::Permutation, 1, 0, 0), 0x312c49d9abd12794c6ffe2886f4f7a37, 0x7767120834b5915d35ccd69fd640a60b),
-            (key(Purpose::Permutation, 0, 0, 1), 0x12ffb0cd5f34cbbaeb5e4946420b3ee5, 0x56deb4a0b0532ef16e3a1c2c2a4e725f),
+            (
+                key(Purpose::Permutation, 0, 0, 0),
+                0x50678b12ce3229b2a2f0d42a8a8957c3u128,
+                0xedf528c2fb861d433694c362449e717bu128,
+            ),
+            (
+                key(Purpose::Permutation, 1, 0, 0),
+                0x312c49d9abd12794c6ffe2886f4f7a37,
+                0x7767120834b5915d35ccd69fd640a60b,
+            ),
+            (
+                key(Purpose::Permutation, 0, 0, 1),
+                0x12ffb0cd5f34cbbaeb5e4946420b3ee5,
+                0x56deb4a0b0532ef16e3a1c2c2a4e725f,
+            ),
             (key(Purpose::Bootstrap, 5, 3, 0), 0x458e068533cd61aaa7a37b0b8a894c51, 0xd33ea77287ab99d9011134fc0e40ea11),
         ];
         for (k, state, inc) in cases {

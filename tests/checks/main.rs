@@ -4,3 +4,8 @@
 //! published worked examples, open datasets); each module names its sources.
 
 mod support;
+
+mod classical;
+mod cli;
+mod descriptives;
+mod robustness;

@@ -21,8 +21,7 @@ pub fn repo_path(rel: &str) -> PathBuf {
 /// Reads `tests/reference/<topic>.json`, written by `tests/reference/generate.py`.
 pub fn fixture(topic: &str) -> Value {
     let path = repo_path(&format!("tests/reference/{topic}.json"));
-    let text = std::fs::read_to_string(&path)
-        .unwrap_or_else(|e| panic!("cannot read fixture {}: {e}", path.display()));
+    let text = std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("cannot read fixture {}: {e}", path.display()));
     serde_json::from_str(&text).unwrap_or_else(|e| panic!("bad fixture {}: {e}", path.display()))
 }
 
@@ -72,4 +71,45 @@ pub fn assert_stat(actual: f64, expected: f64, what: &str) {
 #[track_caller]
 pub fn assert_p(actual: f64, expected: f64, what: &str) {
     assert_close(actual, expected, P_REL, P_ABS, what);
+}
+
+/// A run configuration for a CSV under the repository, with default settings.
+pub fn config_for(csv: &str, outcome: &str, factors: &[String]) -> quorum::config::Config {
+    use quorum::config::*;
+    Config {
+        job: Job::Analyze,
+        data: DataSpec {
+            source: Source::File(repo_path(csv)),
+            outcome: outcome.to_string(),
+            factors: factors.to_vec(),
+            id: None,
+            missing: DataSpec::default_missing(),
+            delimiter: Delimiter::Auto,
+            decimal_comma: false,
+            levels: vec![],
+            measured: vec![],
+        },
+        settings: Settings { quiet: true, ..Settings::default() },
+        output: OutputSpec { format: Format::Json, report_dir: None },
+        command: "test".into(),
+    }
+}
+
+/// The (csv, outcome, factors) of a dataset entry in a fixture.
+pub fn dataset(entry: &Value) -> (String, String, Vec<String>) {
+    let csv = entry["csv"].as_str().expect("csv").to_string();
+    let outcome = entry["outcome"].as_str().expect("outcome").to_string();
+    let factors =
+        entry["factors"].as_array().expect("factors").iter().map(|f| f.as_str().unwrap().to_string()).collect();
+    (csv, outcome, factors)
+}
+
+/// The datasets of a fixture (every key but `_meta`).
+pub fn datasets(fix: &Value) -> Vec<(String, Value)> {
+    fix.as_object()
+        .expect("object")
+        .iter()
+        .filter(|(k, _)| !k.starts_with('_'))
+        .map(|(k, v)| (k.clone(), v.clone()))
+        .collect()
 }

@@ -6,6 +6,7 @@
 //! tests can confirm the fast forms against a full refit.
 
 pub mod ols;
+pub mod wald;
 
 use crate::design::forms::SsForms;
 use crate::design::Design;

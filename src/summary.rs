@@ -9,7 +9,7 @@
 /// Sorted copy of `x` (total order; NaN never occurs in quorum's data).
 pub fn sorted(x: &[f64]) -> Vec<f64> {
     let mut v = x.to_vec();
-    v.sort_by(f64::total_cmp);
+    v.sort_unstable_by(f64::total_cmp);
     v
 }
 
@@ -75,6 +75,76 @@ pub fn winsorized_variance_sorted(sorted: &[f64], gamma: f64) -> f64 {
     let w = |x: f64| x.clamp(lo, hi);
     let mean = crate::model::mean_two_pass(&sorted.iter().map(|&x| w(x)).collect::<Vec<_>>());
     sorted.iter().map(|&x| (w(x) - mean).powi(2)).sum::<f64>() / (n - 1) as f64
+}
+
+/// The order-based summaries of the cell table in O(n): extremes, median, trimmed mean
+/// and winsorized variance (same conventions as the functions above).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct OrderSummary {
+    /// Smallest value.
+    pub min: f64,
+    /// Largest value.
+    pub max: f64,
+    /// Median (mean of the two middle values for even n).
+    pub median: f64,
+    /// γ-trimmed mean ([`trimmed_mean_sorted`]); NaN when nothing is left.
+    pub trimmed_mean: f64,
+    /// γ-winsorized variance ([`winsorized_variance_sorted`]); NaN for n < 2.
+    pub winsorized_variance: f64,
+}
+
+/// Cells up to this size are simply sorted; larger ones use selection.
+const SORT_SMALL: usize = 64;
+
+/// [`OrderSummary`] of `x` by selection (`select_nth_unstable`) instead of a full sort,
+/// so that a million-row design costs O(N). Empty input gives NaN everywhere.
+pub fn order_summary(x: &[f64], gamma: f64) -> OrderSummary {
+    let n = x.len();
+    if n == 0 {
+        return OrderSummary {
+            min: f64::NAN,
+            max: f64::NAN,
+            median: f64::NAN,
+            trimmed_mean: f64::NAN,
+            winsorized_variance: f64::NAN,
+        };
+    }
+    if n <= SORT_SMALL {
+        let s = sorted(x);
+        return OrderSummary {
+            min: s[0],
+            max: s[n - 1],
+            median: median_sorted(&s),
+            trimmed_mean: trimmed_mean_sorted(&s, gamma),
+            winsorized_variance: winsorized_variance_sorted(&s, gamma),
+        };
+    }
+    let cmp = |a: &f64, b: &f64| a.total_cmp(b);
+    let mut v = x.to_vec();
+    let min = x.iter().copied().fold(f64::INFINITY, f64::min);
+    let max = x.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+    let (left, &mut upper_mid, _) = v.select_nth_unstable_by(n / 2, cmp);
+    let median = if n % 2 == 1 {
+        upper_mid
+    } else {
+        let lower_mid = left.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        0.5 * (lower_mid + upper_mid)
+    };
+    let g = trim_count(gamma, n);
+    if 2 * g >= n {
+        return OrderSummary { min, max, median, trimmed_mean: f64::NAN, winsorized_variance: f64::NAN };
+    }
+    // Place the order statistics g and n−1−g; between them lie the kept values.
+    v.select_nth_unstable_by(g, cmp);
+    let (lo, rest) = v.split_at_mut(g + 1);
+    if n - 1 - g > g {
+        rest.select_nth_unstable_by(n - 2 - 2 * g, cmp);
+    }
+    let low = lo[g];
+    let high = v[n - 1 - g];
+    let trimmed_mean = crate::model::mean_two_pass(&v[g..n - g]);
+    let wins: Vec<f64> = x.iter().map(|&z| z.clamp(low, high)).collect();
+    OrderSummary { min, max, median, trimmed_mean, winsorized_variance: variance(&wins) }
 }
 
 /// Sample variance with n − 1 denominator (two-pass); NaN for n < 2.
@@ -182,6 +252,32 @@ mod tests {
         assert!((excess_kurtosis_se(5).unwrap() - 2.0).abs() < 1e-12);
         assert_eq!(skewness_se(2), None);
         assert_eq!(excess_kurtosis_se(3), None);
+    }
+
+    #[test]
+    fn selection_equals_sorting() {
+        // Property: the O(n) selection path gives the sorted path's values.
+        let mut x: u64 = 99;
+        for n in [65usize, 66, 100, 257, 1000] {
+            let data: Vec<f64> = (0..n)
+                .map(|_| {
+                    x ^= x << 13;
+                    x ^= x >> 7;
+                    x ^= x << 17;
+                    ((x % 1000) as f64) / 10.0
+                })
+                .collect();
+            for gamma in [0.0, 0.1, 0.2, 0.49] {
+                let fast = order_summary(&data, gamma);
+                let s = sorted(&data);
+                let close = |a: f64, b: f64| (a - b).abs() <= 1e-12 * b.abs().max(1.0);
+                assert_eq!(fast.min, s[0]);
+                assert_eq!(fast.max, s[n - 1]);
+                assert_eq!(fast.median, median_sorted(&s));
+                assert!(close(fast.trimmed_mean, trimmed_mean_sorted(&s, gamma)), "n {n} γ {gamma}");
+                assert!(close(fast.winsorized_variance, winsorized_variance_sorted(&s, gamma)), "n {n} γ {gamma}");
+            }
+        }
     }
 
     #[test]

@@ -108,8 +108,7 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
     let header_line = line_of(&record);
     let columns = Columns::locate(&header, spec, &loc.at_line(header_line), delimiter)?;
 
-    let missing: Vec<&str> = spec.missing.iter().map(|s| s.trim()).collect();
-    let is_missing = |field: &str| missing.contains(&field.trim());
+    let missing = MissingTokens::new(&spec.missing);
 
     let nf = spec.factors.len();
     let mut factor_cols: Vec<FactorColumn> = spec
@@ -117,7 +116,7 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
         .iter()
         .map(|name| FactorColumn { name: name.clone(), labels: Vec::new(), first_line: Vec::new(), codes: Vec::new() })
         .collect();
-    let mut intern: Vec<HashMap<Box<[u8]>, u32>> = vec![HashMap::new(); nf];
+    let mut intern: Vec<Interner> = (0..nf).map(|_| Interner::default()).collect();
     let mut ids: HashMap<Box<[u8]>, u64> = HashMap::new();
     let mut values: Vec<f64> = Vec::new();
     let mut decimals: Vec<Option<Decimal>> = Vec::new();
@@ -137,10 +136,10 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
         }
         rows_read += 1;
         let line = line_of(&record);
-        let here = loc.at_line(line);
+        let here = || loc.at_line(line);
         if record.len() != header.len() {
             return Err(Error::input_hint(
-                here,
+                here(),
                 format!("this row has {} fields but the header has {}", record.len(), header.len()),
                 format!(
                     "fields are split by {}; check for a stray delimiter or an unclosed quote, or name the delimiter with --delimiter",
@@ -149,8 +148,7 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
             ));
         }
         // Outcome.
-        let y_text = field_str(&record, columns.outcome);
-        if is_missing(y_text) {
+        if missing.contains(&record[columns.outcome]) {
             dropped.push(Dropped { line, reason: format!("missing outcome `{}`", spec.outcome) });
             continue;
         }
@@ -158,33 +156,35 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
         let mut missing_factor = None;
         for (f, &col) in columns.factors.iter().enumerate() {
             let raw = &record[col];
-            if is_missing(field_str(&record, col)) {
+            if missing.contains(raw) {
                 missing_factor = Some(f);
                 break;
             }
-            let next = factor_cols[f].labels.len() as u32;
-            let code = *intern[f].entry(raw.into()).or_insert(next);
-            if code == next {
-                factor_cols[f].labels.push(field_str(&record, col).to_string());
-                factor_cols[f].first_line.push(line);
-            }
-            codes[f] = code;
+            codes[f] = match intern[f].get(raw) {
+                Some(code) => code,
+                None => {
+                    let code = intern[f].insert(raw);
+                    factor_cols[f].labels.push(field_str(&record, col).to_string());
+                    factor_cols[f].first_line.push(line);
+                    code
+                }
+            };
         }
         if let Some(f) = missing_factor {
             dropped.push(Dropped { line, reason: format!("missing factor `{}`", spec.factors[f]) });
             continue;
         }
-        let trimmed = y_text.trim();
+        let trimmed = field_str(&record, columns.outcome).trim();
         let (value, decimal) = parse_number(trimmed, spec.decimal_comma).map_err(|problem| {
             let (what, hint) = problem.explain(trimmed);
-            Error::input_hint(here.in_column(spec.outcome.clone()), what, hint)
+            Error::input_hint(here().in_column(spec.outcome.clone()), what, hint)
         })?;
         if let Some(col) = columns.id {
             let id = &record[col];
-            if !is_missing(field_str(&record, col)) {
+            if !missing.contains(id) {
                 if let Some(&first) = ids.get(id) {
                     return Err(Error::input_hint(
-                        here.in_column(header[col].clone()),
+                        here().in_column(header[col].clone()),
                         format!("participant id `{}` also appears at line {first}", field_str(&record, col)),
                         "quorum analyses between-subjects designs: one row per participant. Repeated measures analysed as independent rows give pseudo-replicated p-values",
                     ));
@@ -220,6 +220,60 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
         dropped,
         delimiter,
     })
+}
+
+/// The missing-value tokens, compared with a field after trimming ASCII whitespace.
+struct MissingTokens {
+    tokens: Vec<Vec<u8>>,
+    longest: usize,
+}
+
+impl MissingTokens {
+    fn new(tokens: &[String]) -> Self {
+        let tokens: Vec<Vec<u8>> = tokens.iter().map(|t| t.trim().as_bytes().to_vec()).collect();
+        let longest = tokens.iter().map(Vec::len).max().unwrap_or(0);
+        MissingTokens { tokens, longest }
+    }
+
+    fn contains(&self, field: &[u8]) -> bool {
+        let t = field.trim_ascii();
+        t.len() <= self.longest && self.tokens.iter().any(|tok| tok.as_slice() == t)
+    }
+}
+
+/// Codes of a factor's distinct labels: a linear scan while there are few labels (the
+/// usual case, faster than hashing), a hash map beyond that.
+#[derive(Default)]
+struct Interner {
+    few: Vec<(Box<[u8]>, u32)>,
+    many: HashMap<Box<[u8]>, u32>,
+}
+
+/// Labels kept in the linear list before switching to the hash map.
+const FEW_LABELS: usize = 16;
+
+impl Interner {
+    fn get(&self, label: &[u8]) -> Option<u32> {
+        if self.many.is_empty() {
+            self.few.iter().find(|(l, _)| &**l == label).map(|&(_, c)| c)
+        } else {
+            self.many.get(label).copied()
+        }
+    }
+
+    /// Adds a new label and returns its code (codes count up from 0).
+    fn insert(&mut self, label: &[u8]) -> u32 {
+        let code = (self.few.len() + self.many.len()) as u32;
+        if self.many.is_empty() && self.few.len() < FEW_LABELS {
+            self.few.push((label.into(), code));
+        } else {
+            if self.many.is_empty() {
+                self.many.extend(self.few.drain(..));
+            }
+            self.many.insert(label.into(), code);
+        }
+        code
+    }
 }
 
 fn check_spec(spec: &DataSpec) -> Result<()> {

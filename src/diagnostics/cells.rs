@@ -19,7 +19,7 @@ pub fn cell_table(design: &Design, trim: f64, ci_level: f64) -> Vec<CellSummary>
         .map(|c| {
             let v = design.cell_values(c);
             let n = v.len();
-            let s = summary::sorted(v);
+            let order = summary::order_summary(v, trim);
             let mean = mean_two_pass(v);
             let sd = summary::variance(v).sqrt();
             let se = sd / (n as f64).sqrt();
@@ -34,16 +34,16 @@ pub fn cell_table(design: &Design, trim: f64, ci_level: f64) -> Vec<CellSummary>
                 sd: finite(sd),
                 se: finite(se),
                 mean_ci,
-                median: loc + summary::median_sorted(&s),
-                trimmed_mean: loc + summary::trimmed_mean_sorted(&s, trim),
+                median: loc + order.median,
+                trimmed_mean: loc + order.trimmed_mean,
                 trim,
-                winsorized_sd: finite(summary::winsorized_variance_sorted(&s, trim).sqrt()),
+                winsorized_sd: finite(order.winsorized_variance.sqrt()),
                 skewness: summary::skewness(v),
                 skewness_se: summary::skewness_se(n),
                 excess_kurtosis: summary::excess_kurtosis(v),
                 excess_kurtosis_se: summary::excess_kurtosis_se(n),
-                min: loc + s[0],
-                max: loc + s[n - 1],
+                min: loc + order.min,
+                max: loc + order.max,
                 shapiro_wilk: None,
             }
         })

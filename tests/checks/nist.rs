@@ -31,7 +31,8 @@ fn read(name: &str) -> (Certified, String) {
     let within = lines.iter().find(|l| l.trim_start().starts_with("Within ")).unwrap();
     let b = numbers(between);
     let w = numbers(within);
-    let cert = Certified { df_between: b[0] as usize, ss_between: b[1], f: b[3], df_within: w[0] as usize, ss_within: w[1] };
+    let cert =
+        Certified { df_between: b[0] as usize, ss_between: b[1], f: b[3], df_within: w[0] as usize, ss_within: w[1] };
     let start = lines.iter().rposition(|l| l.trim_start().starts_with("Data:")).unwrap() + 1;
     let mut csv = String::from("treatment,response\n");
     for l in &lines[start..] {

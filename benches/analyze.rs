@@ -37,6 +37,7 @@ fn spec() -> DataSpec {
         decimal_comma: false,
         levels: vec![],
         measured: vec![],
+        sheet: None,
     }
 }
 

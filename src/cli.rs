@@ -31,7 +31,8 @@ pub enum Command {
 /// Arguments of `analyze` and `describe`.
 #[derive(Debug, Args)]
 pub struct RunArgs {
-    /// Data file in long format (CSV, TSV or semicolon-separated; `-` reads standard input).
+    /// Data file in long format: CSV, TSV, semicolon-separated text, or a spreadsheet
+    /// (.xlsx, .xls, .ods); `-` reads standard input.
     pub data: String,
     #[command(flatten)]
     pub columns: ColumnArgs,
@@ -91,6 +92,9 @@ pub struct ReadingArgs {
     /// Numbers use a decimal comma (`7,5`).
     #[arg(long)]
     pub decimal_comma: bool,
+    /// Spreadsheet sheet to read (.xlsx, .xls, .ods): a name or a 1-based position.
+    #[arg(long, value_name = "NAME|INDEX")]
+    pub sheet: Option<String>,
 }
 
 /// Settings shared by the engines.
@@ -191,6 +195,7 @@ fn run_config(a: RunArgs, job: Job, command: String) -> Result<Config> {
         decimal_comma: a.reading.decimal_comma,
         levels,
         measured: a.columns.measured.iter().map(|f| f.trim().to_string()).collect(),
+        sheet: a.reading.sheet,
     };
     let mut settings = settings(&a.engine)?;
     settings.quiet = a.output.quiet;

@@ -63,9 +63,28 @@ pub struct DataSpec {
     pub levels: Vec<(String, Vec<String>)>,
     /// Factors that are measured (e.g. age group) rather than manipulated.
     pub measured: Vec<String>,
+    /// Spreadsheet sheet by name or 1-based position (first sheet when absent).
+    pub sheet: Option<String>,
 }
 
 impl DataSpec {
+    /// A description with every option at its default: delimiter detection, the default
+    /// missing tokens, no id, level order from the data, no measured factors, first sheet.
+    pub fn new(source: Source, outcome: &str, factors: &[&str]) -> DataSpec {
+        DataSpec {
+            source,
+            outcome: outcome.to_string(),
+            factors: factors.iter().map(|f| f.to_string()).collect(),
+            id: None,
+            missing: Self::default_missing(),
+            delimiter: Delimiter::Auto,
+            decimal_comma: false,
+            levels: vec![],
+            measured: vec![],
+            sheet: None,
+        }
+    }
+
     /// The default missing-value tokens (DESIGN.md): `NA`, empty, `.`, `NaN`.
     pub fn default_missing() -> Vec<String> {
         ["NA", "", ".", "NaN"].iter().map(|s| s.to_string()).collect()

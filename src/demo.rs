@@ -25,6 +25,7 @@ pub fn field_trial_spec() -> DataSpec {
         decimal_comma: false,
         levels: vec![("irrigation".into(), vec!["daily".into(), "every-2-days".into(), "weekly".into()])],
         measured: vec![],
+        sheet: None,
     }
 }
 

@@ -17,6 +17,10 @@ pub struct Location {
     pub line: Option<u64>,
     /// Column (header) name.
     pub column: Option<String>,
+    /// Spreadsheet sheet name.
+    pub sheet: Option<String>,
+    /// Spreadsheet cell reference, e.g. `C214` (replaces line and column when present).
+    pub cell: Option<String>,
 }
 
 impl Location {
@@ -36,7 +40,11 @@ impl Location {
     }
 
     fn is_empty(&self) -> bool {
-        self.file.is_none() && self.line.is_none() && self.column.is_none()
+        self.file.is_none()
+            && self.line.is_none()
+            && self.column.is_none()
+            && self.sheet.is_none()
+            && self.cell.is_none()
     }
 }
 
@@ -46,11 +54,18 @@ impl fmt::Display for Location {
         if let Some(file) = &self.file {
             parts.push(file.clone());
         }
-        if let Some(line) = self.line {
-            parts.push(format!("line {line}"));
+        if let Some(sheet) = &self.sheet {
+            parts.push(format!("sheet \"{sheet}\""));
         }
-        if let Some(column) = &self.column {
-            parts.push(format!("column `{column}`"));
+        if let Some(cell) = &self.cell {
+            parts.push(format!("cell {cell}"));
+        } else {
+            if let Some(line) = self.line {
+                parts.push(format!("line {line}"));
+            }
+            if let Some(column) = &self.column {
+                parts.push(format!("column `{column}`"));
+            }
         }
         write!(f, "{}", parts.join(", "))
     }

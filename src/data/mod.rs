@@ -8,13 +8,14 @@
 //! names the file, line and column and says what to do (DESIGN.md).
 
 pub mod number;
+pub mod rows;
+pub mod sheet;
 pub mod text;
 
 use crate::config::DataSpec;
 use crate::error::{Error, Location, Result};
-use number::{centre_exactly, parse_number, Decimal};
+use rows::{Field, Role, RowSink};
 use serde::Serialize;
-use std::collections::HashMap;
 
 /// The most factors a design may have.
 pub const MAX_FACTORS: usize = 6;
@@ -74,6 +75,16 @@ pub fn read(spec: &DataSpec) -> Result<Observations> {
     let source = spec.source.display_name();
     let loc = Location::file(source.clone());
     let bytes = text::load(&spec.source)?;
+    if sheet::looks_like_spreadsheet(&bytes) {
+        check_spec(spec)?;
+        return sheet::parse(&bytes, spec, &source, &loc);
+    }
+    if spec.sheet.is_some() {
+        return Err(Error::usage(
+            "--sheet was given but the input is not a spreadsheet",
+            "drop --sheet for CSV or TSV files",
+        ));
+    }
     parse(&bytes, spec, &source, &loc)
 }
 
@@ -108,23 +119,8 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
     let header_line = line_of(&record);
     let columns = Columns::locate(&header, spec, &loc.at_line(header_line), delimiter)?;
 
-    let missing = MissingTokens::new(&spec.missing);
-
+    let mut sink = RowSink::new(spec);
     let nf = spec.factors.len();
-    let mut factor_cols: Vec<FactorColumn> = spec
-        .factors
-        .iter()
-        .map(|name| FactorColumn { name: name.clone(), labels: Vec::new(), first_line: Vec::new(), codes: Vec::new() })
-        .collect();
-    let mut intern: Vec<Interner> = (0..nf).map(|_| Interner::default()).collect();
-    let mut ids: HashMap<Box<[u8]>, u64> = HashMap::new();
-    let mut values: Vec<f64> = Vec::new();
-    let mut decimals: Vec<Option<Decimal>> = Vec::new();
-    let mut lines: Vec<u64> = Vec::new();
-    let mut dropped = Vec::new();
-    let mut rows_read = 0usize;
-    let mut codes = vec![0u32; nf];
-
     loop {
         match reader.read_byte_record(&mut record) {
             Ok(true) => {}
@@ -134,12 +130,10 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
         if is_blank(&record) {
             continue;
         }
-        rows_read += 1;
         let line = line_of(&record);
-        let here = || loc.at_line(line);
         if record.len() != header.len() {
             return Err(Error::input_hint(
-                here(),
+                loc.at_line(line),
                 format!("this row has {} fields but the header has {}", record.len(), header.len()),
                 format!(
                     "fields are split by {}; check for a stray delimiter or an unclosed quote, or name the delimiter with --delimiter",
@@ -147,133 +141,27 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
                 ),
             ));
         }
-        // Outcome.
-        if missing.contains(&record[columns.outcome]) {
-            dropped.push(Dropped { line, reason: format!("missing outcome `{}`", spec.outcome) });
-            continue;
+        let mut factors = [Field::Text(""); MAX_FACTORS];
+        for (slot, &col) in factors.iter_mut().zip(&columns.factors) {
+            *slot = Field::Text(field_str(&record, col));
         }
-        // Factors.
-        let mut missing_factor = None;
-        for (f, &col) in columns.factors.iter().enumerate() {
-            let raw = &record[col];
-            if missing.contains(raw) {
-                missing_factor = Some(f);
-                break;
-            }
-            codes[f] = match intern[f].get(raw) {
-                Some(code) => code,
-                None => {
-                    let code = intern[f].insert(raw);
-                    factor_cols[f].labels.push(field_str(&record, col).to_string());
-                    factor_cols[f].first_line.push(line);
-                    code
-                }
+        let place = |role: Role| {
+            let name = match role {
+                Role::Outcome => spec.outcome.clone(),
+                Role::Factor(f) => spec.factors[f].clone(),
+                Role::Id => spec.id.clone().unwrap_or_default(),
             };
-        }
-        if let Some(f) = missing_factor {
-            dropped.push(Dropped { line, reason: format!("missing factor `{}`", spec.factors[f]) });
-            continue;
-        }
-        let trimmed = field_str(&record, columns.outcome).trim();
-        let (value, decimal) = parse_number(trimmed, spec.decimal_comma).map_err(|problem| {
-            let (what, hint) = problem.explain(trimmed);
-            Error::input_hint(here().in_column(spec.outcome.clone()), what, hint)
-        })?;
-        if let Some(col) = columns.id {
-            let id = &record[col];
-            if !missing.contains(id) {
-                if let Some(&first) = ids.get(id) {
-                    return Err(Error::input_hint(
-                        here().in_column(header[col].clone()),
-                        format!("participant id `{}` also appears at line {first}", field_str(&record, col)),
-                        "quorum analyses between-subjects designs: one row per participant. Repeated measures analysed as independent rows give pseudo-replicated p-values",
-                    ));
-                }
-                ids.insert(id.into(), line);
-            }
-        }
-        for (f, col) in factor_cols.iter_mut().enumerate() {
-            col.codes.push(codes[f]);
-        }
-        values.push(value);
-        decimals.push(decimal);
-        lines.push(line);
-    }
-
-    if values.is_empty() {
-        let why = if rows_read == 0 {
-            "the file has a header but no data rows".to_string()
-        } else {
-            format!("all {rows_read} data rows miss the outcome or a factor value")
+            loc.at_line(line).in_column(name)
         };
-        return Err(Error::input_hint(loc.clone(), why, "check the column names and the --missing tokens"));
+        sink.push(
+            line,
+            Field::Text(field_str(&record, columns.outcome)),
+            &factors[..nf],
+            columns.id.map(|col| Field::Text(field_str(&record, col))),
+            &place,
+        )?;
     }
-    let (y, location) = centre_exactly(&values, &decimals);
-    Ok(Observations {
-        source: source.to_string(),
-        outcome: spec.outcome.clone(),
-        y,
-        location,
-        factors: factor_cols,
-        lines,
-        rows_read,
-        dropped,
-        delimiter,
-    })
-}
-
-/// The missing-value tokens, compared with a field after trimming ASCII whitespace.
-struct MissingTokens {
-    tokens: Vec<Vec<u8>>,
-    longest: usize,
-}
-
-impl MissingTokens {
-    fn new(tokens: &[String]) -> Self {
-        let tokens: Vec<Vec<u8>> = tokens.iter().map(|t| t.trim().as_bytes().to_vec()).collect();
-        let longest = tokens.iter().map(Vec::len).max().unwrap_or(0);
-        MissingTokens { tokens, longest }
-    }
-
-    fn contains(&self, field: &[u8]) -> bool {
-        let t = field.trim_ascii();
-        t.len() <= self.longest && self.tokens.iter().any(|tok| tok.as_slice() == t)
-    }
-}
-
-/// Codes of a factor's distinct labels: a linear scan while there are few labels (the
-/// usual case, faster than hashing), a hash map beyond that.
-#[derive(Default)]
-struct Interner {
-    few: Vec<(Box<[u8]>, u32)>,
-    many: HashMap<Box<[u8]>, u32>,
-}
-
-/// Labels kept in the linear list before switching to the hash map.
-const FEW_LABELS: usize = 16;
-
-impl Interner {
-    fn get(&self, label: &[u8]) -> Option<u32> {
-        if self.many.is_empty() {
-            self.few.iter().find(|(l, _)| &**l == label).map(|&(_, c)| c)
-        } else {
-            self.many.get(label).copied()
-        }
-    }
-
-    /// Adds a new label and returns its code (codes count up from 0).
-    fn insert(&mut self, label: &[u8]) -> u32 {
-        let code = (self.few.len() + self.many.len()) as u32;
-        if self.many.is_empty() && self.few.len() < FEW_LABELS {
-            self.few.push((label.into(), code));
-        } else {
-            if self.many.is_empty() {
-                self.many.extend(self.few.drain(..));
-            }
-            self.many.insert(label.into(), code);
-        }
-        code
-    }
+    sink.finish(source, loc, delimiter)
 }
 
 fn check_spec(spec: &DataSpec) -> Result<()> {
@@ -402,6 +290,7 @@ mod tests {
             decimal_comma: false,
             levels: vec![],
             measured: vec![],
+            sheet: None,
         }
     }
 

@@ -449,6 +449,7 @@ mod tests {
             decimal_comma: false,
             levels: vec![],
             measured: vec![],
+            sheet: None,
         }
     }
 

@@ -10,3 +10,4 @@ mod cli;
 mod descriptives;
 mod nist;
 mod robustness;
+mod spreadsheet;

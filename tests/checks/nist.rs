@@ -71,6 +71,7 @@ fn every_nist_anova_set_reaches_lre_9() {
             decimal_comma: false,
             levels: vec![],
             measured: vec![],
+            sheet: None,
         };
         let obs = quorum::data::parse(csv.as_bytes(), &spec, name, &Location::file(name)).unwrap();
         let design = quorum::design::Design::build(&obs, &spec).unwrap();

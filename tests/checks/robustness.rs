@@ -17,6 +17,7 @@ fn spec(factors: &[&str]) -> DataSpec {
         decimal_comma: false,
         levels: vec![],
         measured: vec![],
+        sheet: None,
     }
 }
 

@@ -88,6 +88,7 @@ pub fn config_for(csv: &str, outcome: &str, factors: &[String]) -> quorum::confi
             decimal_comma: false,
             levels: vec![],
             measured: vec![],
+            sheet: None,
         },
         settings: Settings { quiet: true, ..Settings::default() },
         output: OutputSpec { format: Format::Json, report_dir: None },

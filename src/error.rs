@@ -77,8 +77,8 @@ pub enum Error {
     /// The input data or the options are unusable as given (exit 2).
     #[error("{}", input_message(.location, .problem, .hint))]
     Input {
-        /// Where the problem is.
-        location: Location,
+        /// Where the problem is (boxed to keep `Result`s small).
+        location: Box<Location>,
         /// What is wrong, in plain words.
         problem: String,
         /// What the user can do about it.
@@ -127,12 +127,12 @@ fn input_message(location: &Location, problem: &str, hint: &Option<String>) -> S
 impl Error {
     /// An input or usage error at `location`.
     pub fn input(location: Location, problem: impl Into<String>) -> Self {
-        Error::Input { location, problem: problem.into(), hint: None }
+        Error::Input { location: Box::new(location), problem: problem.into(), hint: None }
     }
 
     /// An input or usage error with a hint on what to do.
     pub fn input_hint(location: Location, problem: impl Into<String>, hint: impl Into<String>) -> Self {
-        Error::Input { location, problem: problem.into(), hint: Some(hint.into()) }
+        Error::Input { location: Box::new(location), problem: problem.into(), hint: Some(hint.into()) }
     }
 
     /// A usage error in the options (no file location).

@@ -339,11 +339,9 @@ fn trimmed_tests(
         "bootstrap" => "bootstrap critical value",
         _ => "F approximation",
     };
-    writeln!(
-        out,
-        "Trimmed means ({}% trimming), Johansen's Welch–James test; decisions from the {used}",
-        num(Some(trim * 100.0), 3)
-    )?;
+    // Percent with up to 6 significant decimals: 0.2 → "20", 0.125 → "12.5".
+    let percent = (trim * 100.0 * 1e6).round() / 1e6;
+    writeln!(out, "Trimmed means ({percent}% trimming), Johansen's Welch–James test; decisions from the {used}")?;
     let boot = rows.iter().any(|r| r.p_bootstrap.is_some());
     let mut cols = vec![
         ("term", Align::Left),

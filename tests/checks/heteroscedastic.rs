@@ -491,3 +491,31 @@ fn type_i_error_large() {
     let sd9_neg = [3.0, 2.0, 1.0, 3.0, 2.0, 1.0, 3.0, 2.0, 1.0];
     report_and_check("3x3 negative pairing", &null_rejections(5, &[3, 3], &n9, &sd9_neg, reps), reps);
 }
+
+#[test]
+fn command_line_flags_select_the_reference_and_hc_type() {
+    // Behaviour of the real binary: typed flags, reported in `settings`; bad values exit 2.
+    let bin = env!("CARGO_BIN_EXE_quorum");
+    let csv = repo_path("tests/data/warpbreaks.csv");
+    let csv = csv.to_str().unwrap();
+    let common = ["analyze", csv, "-y", "breaks", "-f", "wool,tension", "--format", "json", "--quiet"];
+    let out = std::process::Command::new(bin)
+        .args(common)
+        .args(["--engines", "hc,trimmed", "--wj-reference", "bootstrap", "--hc", "4", "--resamples", "199"])
+        .args(["--trim", "0.1"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    let find = |id: &str| v["engines"].as_array().unwrap().iter().find(|e| e["engine"] == id).unwrap().clone();
+    assert_eq!(find("hc")["settings"]["hc"], "HC4");
+    let t = find("trimmed");
+    assert_eq!(t["settings"]["reference"], "bootstrap");
+    assert_eq!(t["settings"]["trim"], 0.1);
+    assert_eq!(t["settings"]["resamples"], 199);
+    assert!(t["terms"][0]["mc"]["resamples"].as_u64().unwrap() >= 199);
+    for bad in [["--hc", "5"], ["--wj-reference", "median"]] {
+        let out = std::process::Command::new(bin).args(common).args(bad).output().unwrap();
+        assert_eq!(out.status.code(), Some(2), "{bad:?}");
+    }
+}

@@ -55,12 +55,15 @@ impl CellDefect {
     /// The defect in words, for a cell called `cell` (e.g. `A=a1, B=b2`).
     pub fn describe(&self, cell: &str) -> String {
         match self {
+            CellDefect::TooFewAfterTrimming { n, g: 0 } => {
+                format!("cell {cell}: n = {n}; trimmed-means tests need at least 2 observations per cell")
+            }
             CellDefect::TooFewAfterTrimming { n, g } => format!(
                 "cell {cell}: h = {} observation(s) left after trimming {g} from each end of n = {n}; trimmed means need h ≥ 2",
                 n.saturating_sub(2 * g)
             ),
             CellDefect::ZeroWinsorizedVariance => {
-                format!("cell {cell}: zero winsorized variance (the middle values are all equal), so its trimmed mean has no standard error")
+                format!("cell {cell}: zero winsorized variance (its winsorized values are all equal), so its trimmed mean has no standard error")
             }
         }
     }
@@ -407,6 +410,8 @@ mod tests {
         assert!(one.check().is_err());
         let text = CellDefect::TooFewAfterTrimming { n: 3, g: 1 }.describe("A=a1");
         assert!(text.contains("A=a1") && text.contains("h = 1"), "{text}");
+        let text = CellDefect::TooFewAfterTrimming { n: 1, g: 0 }.describe("A=a2");
+        assert!(text.contains("A=a2") && text.contains("n = 1"), "{text}");
     }
 
     fn layout(shape: &[usize]) -> Layout {

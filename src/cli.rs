@@ -4,7 +4,9 @@
 //! [`Cli::into_config`] which checks ranges and names and builds typed values.
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use quorum::config::{Config, DataSpec, Delimiter, Format, Job, OutputSpec, Settings, Source, SsType};
+use quorum::config::{
+    Config, DataSpec, Delimiter, Format, HcType, Job, OutputSpec, Settings, Source, SsType, WjReference,
+};
 use quorum::error::{Error, Result};
 use std::path::PathBuf;
 
@@ -130,6 +132,33 @@ pub struct EngineArgs {
     /// Engines to run, comma-separated (default: all).
     #[arg(long, value_name = "IDS", value_delimiter = ',')]
     pub engines: Option<Vec<String>>,
+    /// Reference distribution of the trimmed-means Welch–James test.
+    #[arg(long, value_enum, default_value_t = WjReferenceArg::F)]
+    pub wj_reference: WjReferenceArg,
+    /// Heteroscedasticity-consistent covariance of the `hc` engine: 0, 1, 2, 3 or 4.
+    #[arg(long, value_name = "0-4", default_value_t = 3, value_parser = clap::value_parser!(u8).range(0..=4))]
+    pub hc: u8,
+}
+
+/// Reference distributions of the trimmed-means test.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum WjReferenceArg {
+    /// Q/c_J against F(q, ν₂) (Johansen).
+    F,
+    /// Q against the adjusted χ² critical value.
+    Adjusted,
+    /// Q against its bootstrap distribution (centred cells, --resamples).
+    Bootstrap,
+}
+
+impl From<WjReferenceArg> for WjReference {
+    fn from(r: WjReferenceArg) -> WjReference {
+        match r {
+            WjReferenceArg::F => WjReference::F,
+            WjReferenceArg::Adjusted => WjReference::Adjusted,
+            WjReferenceArg::Bootstrap => WjReference::Bootstrap,
+        }
+    }
 }
 
 /// Where results go.
@@ -266,6 +295,8 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         threads: e.threads,
         engines,
         quiet: false,
+        wj_reference: e.wj_reference.into(),
+        hc: HcType::ALL[usize::from(e.hc.min(4))],
     })
 }
 

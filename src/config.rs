@@ -114,6 +114,70 @@ impl SsType {
     }
 }
 
+/// Reference distribution of the `trimmed` engine's Welch–James test (METHODS §4.2–§4.3).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum WjReference {
+    /// F_WJ = Q/c_J against F(q, ν₂) (Johansen 1980; the default).
+    F,
+    /// Q against the adjusted χ²_q critical value (James 1951 / Johansen 1980, first order).
+    Adjusted,
+    /// Q against its bootstrap distribution from centred cells (Keselman, Wilcox & Lix 2003).
+    Bootstrap,
+}
+
+impl WjReference {
+    /// The id used on the command line and in `settings` (`f`, `adjusted`, `bootstrap`).
+    pub fn id(self) -> &'static str {
+        match self {
+            WjReference::F => "f",
+            WjReference::Adjusted => "adjusted",
+            WjReference::Bootstrap => "bootstrap",
+        }
+    }
+}
+
+/// Heteroscedasticity-consistent covariance type of the `hc` engine (METHODS §7).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum HcType {
+    /// White (1980): ω = 1.
+    Hc0,
+    /// Degrees-of-freedom scaled: ω = N/(N − p).
+    Hc1,
+    /// Leverage-corrected: ω = 1/(1 − h).
+    Hc2,
+    /// Jackknife-like (MacKinnon & White 1985): ω = 1/(1 − h)²; the default (Long & Ervin 2000).
+    Hc3,
+    /// Cribari-Neto (2004): ω = 1/(1 − h)^δ, δ = min(4, N·h/p).
+    Hc4,
+}
+
+impl HcType {
+    /// 0 to 4.
+    pub fn number(self) -> u8 {
+        match self {
+            HcType::Hc0 => 0,
+            HcType::Hc1 => 1,
+            HcType::Hc2 => 2,
+            HcType::Hc3 => 3,
+            HcType::Hc4 => 4,
+        }
+    }
+
+    /// `HC0` … `HC4`.
+    pub fn label(self) -> &'static str {
+        match self {
+            HcType::Hc0 => "HC0",
+            HcType::Hc1 => "HC1",
+            HcType::Hc2 => "HC2",
+            HcType::Hc3 => "HC3",
+            HcType::Hc4 => "HC4",
+        }
+    }
+
+    /// All five types in order.
+    pub const ALL: [HcType; 5] = [HcType::Hc0, HcType::Hc1, HcType::Hc2, HcType::Hc3, HcType::Hc4];
+}
+
 /// Settings shared by the engines.
 #[derive(Debug, Clone)]
 pub struct Settings {
@@ -139,6 +203,10 @@ pub struct Settings {
     pub engines: Vec<String>,
     /// Hide progress bars.
     pub quiet: bool,
+    /// Reference distribution of the trimmed engine's test (default F).
+    pub wj_reference: WjReference,
+    /// HC covariance type of the `hc` engine (default HC3).
+    pub hc: HcType,
 }
 
 /// The default seed of every random stream (METHODS §10.2).
@@ -158,6 +226,8 @@ impl Default for Settings {
             threads: None,
             engines: crate::engines::ids().iter().map(|s| s.to_string()).collect(),
             quiet: false,
+            wj_reference: WjReference::F,
+            hc: HcType::Hc3,
         }
     }
 }

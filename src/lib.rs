@@ -19,6 +19,7 @@
 //! * [`engines`] holds one inference engine per file behind the [`engines::Engine`] trait.
 //! * [`diagnostics`] describes cells and checks assumptions; it never decides.
 //! * [`concordance`] compares the engines' decisions term by term.
+//! * [`robust`] holds trimmed-mean building blocks (Welch–James, Yuen, robust d).
 //! * [`report`] renders the one [`results::Analysis`] value; it never computes statistics.
 #![deny(missing_docs)]
 
@@ -36,6 +37,7 @@ pub mod model;
 pub mod report;
 pub mod resample;
 pub mod results;
+pub mod robust;
 pub mod summary;
 
 pub use error::{Error, Result};

@@ -361,6 +361,66 @@ pub enum Details {
         /// Term results under `--ss 1|2` (the `terms` list always holds Type III).
         reported_terms: Option<Vec<TermResult>>,
     },
+    /// The trimmed engine's per-cell summaries and every Welch–James quantity per term.
+    Trimmed {
+        /// Trimming proportion γ.
+        trim: f64,
+        /// Reference distribution behind `terms[].p`: `f`, `adjusted` or `bootstrap`.
+        reference: String,
+        /// Per-cell trimmed summaries, cell order.
+        cells: Vec<TrimmedCellRow>,
+        /// Per-term Johansen quantities, canonical order.
+        terms: Vec<WelchJamesRow>,
+    },
+}
+
+/// Trimmed summaries of one cell (outcome units).
+#[derive(Debug, Clone, Serialize)]
+pub struct TrimmedCellRow {
+    /// Level of each factor.
+    pub levels: Vec<String>,
+    /// Observations n.
+    pub n: usize,
+    /// Trimmed from each end, g = ⌊γn⌋.
+    pub g: usize,
+    /// Left after trimming, h = n − 2g.
+    pub h: usize,
+    /// Trimmed mean.
+    pub trimmed_mean: Option<f64>,
+    /// Winsorized variance (n − 1 denominator).
+    pub winsorized_variance: Option<f64>,
+    /// Standard error of the trimmed mean √d, d = (n − 1)s²_w/(h(h − 1)).
+    pub se: Option<f64>,
+}
+
+/// Johansen's Welch–James quantities of one term (METHODS §4.2–§4.3).
+#[derive(Debug, Clone, Serialize)]
+pub struct WelchJamesRow {
+    /// Term id.
+    pub term: String,
+    /// Johansen's Q (a Wald form in trimmed means with V = diag(d)).
+    #[serde(rename = "Q")]
+    pub q_stat: Option<f64>,
+    /// Johansen's A = Σ R_cc²/(h_c − 1).
+    #[serde(rename = "A")]
+    pub a: Option<f64>,
+    /// c_J = q + 2A − 6A/(q + 2).
+    pub c_j: Option<f64>,
+    /// ν₁ = q.
+    pub df1: Option<f64>,
+    /// ν₂ = q(q + 2)/(3A).
+    pub df2: Option<f64>,
+    /// F_WJ = Q/c_J.
+    #[serde(rename = "F")]
+    pub f: Option<f64>,
+    /// P(F(ν₁, ν₂) ≥ F_WJ).
+    pub p_f: Option<f64>,
+    /// Adjusted-critical-value p, P(χ²_q ≥ c*).
+    pub p_adjusted: Option<f64>,
+    /// Bootstrap p (1 + #{Q* ≥ Q})/(B + 1), when the bootstrap reference ran.
+    pub p_bootstrap: Option<f64>,
+    /// Resamples whose Q* was undefined (singular covariance), counted as exceedances.
+    pub bootstrap_undefined: Option<u64>,
 }
 
 /// One engine's results for every term.

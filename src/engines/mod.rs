@@ -9,6 +9,8 @@
 //! [`Engine`], and add one line to [`registry`].
 
 pub mod classical;
+pub mod hc;
+pub mod trimmed;
 
 use crate::config::Settings;
 use crate::design::forms::SsForms;
@@ -45,7 +47,7 @@ pub trait Engine: Sync + Send {
 
 /// Every engine quorum has, in report order.
 pub fn registry() -> Vec<Box<dyn Engine>> {
-    vec![Box::new(classical::Classical)]
+    vec![Box::new(classical::Classical), Box::new(hc::Hc), Box::new(trimmed::Trimmed)]
 }
 
 /// Ids of every engine, in report order.

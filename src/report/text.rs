@@ -3,7 +3,7 @@
 
 use super::table::{num, p_value, Align, Table};
 use super::Render;
-use crate::results::{Analysis, Decision, Details, EngineResult, Interval, Verdict};
+use crate::results::{Analysis, Decision, Details, EngineResult, Interval, Verdict, WelchJamesRow};
 use std::io::{self, Write};
 
 /// The plain-text renderer.
@@ -180,6 +180,7 @@ fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
             }
             writeln!(out, "{}", t.render(2))?;
         }
+        Some(Details::Trimmed { trim, reference, terms, .. }) => trimmed_tests(e, *trim, reference, terms, out)?,
         _ => generic_tests(e, out)?,
     }
     let mut t = Table::new(&[
@@ -322,4 +323,70 @@ fn roman(ss_type: u8) -> &'static str {
         2 => "II",
         _ => "III",
     }
+}
+
+/// The trimmed engine's Welch–James table: every reference distribution side by side,
+/// the one behind the decision named in the title, and d_R for 1-df terms.
+fn trimmed_tests(
+    e: &EngineResult,
+    trim: f64,
+    reference: &str,
+    rows: &[WelchJamesRow],
+    out: &mut dyn Write,
+) -> io::Result<()> {
+    let used = match reference {
+        "adjusted" => "adjusted χ² critical value",
+        "bootstrap" => "bootstrap critical value",
+        _ => "F approximation",
+    };
+    // Percent with up to 6 significant decimals: 0.2 → "20", 0.125 → "12.5".
+    let percent = (trim * 100.0 * 1e6).round() / 1e6;
+    writeln!(out, "Trimmed means ({percent}% trimming), Johansen's Welch–James test; decisions from the {used}")?;
+    let boot = rows.iter().any(|r| r.p_bootstrap.is_some());
+    let mut cols = vec![
+        ("term", Align::Left),
+        ("Q", Align::Right),
+        ("c_J", Align::Right),
+        ("F_WJ", Align::Right),
+        ("df1", Align::Right),
+        ("ν₂", Align::Right),
+        ("p (F)", Align::Right),
+        ("p (adj. χ²)", Align::Right),
+    ];
+    if boot {
+        cols.push(("p (bootstrap)", Align::Right));
+    }
+    cols.extend([("decision", Align::Left), ("robust d", Align::Right)]);
+    let mut t = Table::new(&cols);
+    for r in &e.terms {
+        let w = rows.iter().find(|w| w.term == r.term);
+        let get = |f: fn(&WelchJamesRow) -> Option<f64>| w.and_then(f);
+        let decision = match r.decision {
+            Some(Decision::Reject) => "reject",
+            Some(Decision::Retain) => "retain",
+            Some(Decision::Undetermined) => "undetermined",
+            None => "—",
+        };
+        let mut row = vec![
+            r.term.clone(),
+            num(get(|w| w.q_stat), 4),
+            num(get(|w| w.c_j), 4),
+            num(get(|w| w.f), 4),
+            num(get(|w| w.df1), 3),
+            num(get(|w| w.df2), 4),
+            p_value(get(|w| w.p_f)),
+            p_value(get(|w| w.p_adjusted)),
+        ];
+        if boot {
+            let mc = match &r.mc {
+                Some(m) => format!(" (B = {})", m.resamples),
+                None => String::new(),
+            };
+            row.push(format!("{}{mc}", p_value(get(|w| w.p_bootstrap))));
+        }
+        let d = r.effects.iter().find(|x| x.name == "robust_d").and_then(|x| x.value);
+        row.extend([decision.to_string(), num(d, 3)]);
+        t.row(row);
+    }
+    writeln!(out, "{}", t.render(2))
 }

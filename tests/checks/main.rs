@@ -8,6 +8,7 @@ mod support;
 mod classical;
 mod cli;
 mod descriptives;
+mod heteroscedastic;
 mod nist;
 mod robustness;
 mod spreadsheet;

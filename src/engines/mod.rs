@@ -8,7 +8,9 @@
 //! Adding an engine: write `engines/<name>.rs` with a unit struct implementing
 //! [`Engine`], and add one line to [`registry`].
 
+pub mod art;
 pub mod classical;
+pub mod rank_ats;
 
 use crate::config::Settings;
 use crate::design::forms::SsForms;
@@ -45,7 +47,7 @@ pub trait Engine: Sync + Send {
 
 /// Every engine quorum has, in report order.
 pub fn registry() -> Vec<Box<dyn Engine>> {
-    vec![Box::new(classical::Classical)]
+    vec![Box::new(classical::Classical), Box::new(art::Art), Box::new(rank_ats::RankAts)]
 }
 
 /// Ids of every engine, in report order.

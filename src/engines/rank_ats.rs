@@ -264,9 +264,22 @@ impl Engine for RankAts {
                     }
                 };
                 if a.effect.is_some() {
-                    notes.push(
-                        "effect: difference of relative effects, first level minus second (an interaction: difference of differences), averaged over the other factors".into(),
-                    );
+                    let parts: Vec<String> = term
+                        .factors
+                        .iter()
+                        .map(|&f| {
+                            let fac = &design.factors()[f];
+                            format!("{n}={} − {n}={}", fac.levels[0], fac.levels[1], n = fac.name)
+                        })
+                        .collect();
+                    notes.push(if parts.len() == 1 {
+                        format!("effect: relative effect at {}, averaged over the other factors", parts[0])
+                    } else {
+                        format!(
+                            "effect: difference of differences of relative effects, ({}), averaged over the other factors",
+                            parts.join(") × (")
+                        )
+                    });
                 }
                 TermResult {
                     term: term.name.clone(),

@@ -15,6 +15,7 @@
 //! * [`design`] builds factors, cells, terms and the per-term quadratic forms in cell sums.
 //! * [`model`] fits the full factorial model: SS of Types I–III and effect sizes.
 //! * [`dist`] holds every distribution function and p-value.
+//! * [`rank`] ranks, aligns and compares on ranks for the rank-based engines.
 //! * [`resample`] derives reproducible random streams for resampling engines.
 //! * [`engines`] holds one inference engine per file behind the [`engines::Engine`] trait.
 //! * [`diagnostics`] describes cells and checks assumptions; it never decides.
@@ -34,6 +35,7 @@ pub mod dist;
 pub mod engines;
 pub mod error;
 pub mod model;
+pub mod rank;
 pub mod report;
 pub mod resample;
 pub mod results;

@@ -372,6 +372,11 @@ pub enum Details {
         /// Per-term Johansen quantities, canonical order.
         terms: Vec<WelchJamesRow>,
     },
+    /// The `art` engine's alignment checks, the ties in the outcome and the published
+    /// limitations that apply to these data.
+    Art(ArtDetails),
+    /// The `rank-ats` engine's ranks, relative effects and degrees of freedom.
+    RankAts(RankAtsDetails),
 }
 
 /// Trimmed summaries of one cell (outcome units).
@@ -513,4 +518,91 @@ pub struct Reproducibility {
     pub threads: usize,
     /// The command as typed.
     pub command: String,
+}
+
+/// Ties among the outcome values (exact equality).
+#[derive(Debug, Clone, Serialize)]
+pub struct TieReport {
+    /// Observations.
+    pub n: usize,
+    /// Distinct values.
+    pub distinct: usize,
+    /// Share of observations whose value another observation shares, in [0, 1].
+    pub tied_share: f64,
+    /// Share of the mid-rank variance lost to ties, Σ(t³ − t)/(N³ − N).
+    pub rank_variance_lost: f64,
+}
+
+/// The internal consistency check of one term's alignment (aligned, unranked responses).
+#[derive(Debug, Clone, Serialize)]
+pub struct AlignmentReport {
+    /// Term the responses are aligned for.
+    pub term: String,
+    /// Σ of the aligned responses over observations (0 in balanced designs; outcome units).
+    pub observation_sum: f64,
+    /// Σ of the aligned cell means (0 in every design; outcome units).
+    pub cell_mean_sum: f64,
+    /// Largest Type III SS of another term, as a share of SST (0 up to rounding).
+    pub max_other_ss_share: f64,
+    /// |SS of the term − its classical SS| as a share of SST (0 up to rounding).
+    pub target_ss_error_share: f64,
+    /// The bound both shares were checked against (exceeding it stops with exit 4).
+    pub bound: f64,
+}
+
+/// Details of the aligned rank transform engine.
+#[derive(Debug, Clone, Serialize)]
+pub struct ArtDetails {
+    /// How the responses were aligned.
+    pub alignment: String,
+    /// Aligned responses closer than this (outcome units) are tied when ranked.
+    pub tie_tolerance: f64,
+    /// Ties in the outcome.
+    pub outcome_ties: TieReport,
+    /// One alignment check per term, canonical order.
+    pub checks: Vec<AlignmentReport>,
+    /// Published limitations that apply to these data (codes in DEVELOPERS.md).
+    pub flags: Vec<Flag>,
+}
+
+/// Relative effect of one cell (rank ATS).
+#[derive(Debug, Clone, Serialize)]
+pub struct RelativeEffect {
+    /// Level of each factor.
+    pub levels: Vec<String>,
+    /// Observations in the cell.
+    pub n: usize,
+    /// p̂_c = (mean rank of the cell − ½)/N, in (0, 1); above ½: the cell tends to larger
+    /// values than the reference distribution.
+    pub value: Option<f64>,
+}
+
+/// Box-type degrees of freedom and the large-sample p of one term (rank ATS).
+#[derive(Debug, Clone, Serialize)]
+pub struct AtsTerm {
+    /// Term id.
+    pub term: String,
+    /// tr(T V̂), the statistic's scale.
+    pub trace: Option<f64>,
+    /// Numerator df f̂.
+    pub f_hat: Option<f64>,
+    /// Denominator df f̂₀.
+    pub f0_hat: Option<f64>,
+    /// P(χ²_f̂/f̂ ≥ F): the large-sample p, for reference.
+    pub p_large_sample: Option<f64>,
+}
+
+/// Details of the rank ANOVA-type statistic engine.
+#[derive(Debug, Clone, Serialize)]
+pub struct RankAtsDetails {
+    /// `mid-ranks` or `pseudo-ranks`.
+    pub ranks: String,
+    /// Why those ranks.
+    pub ranks_reason: String,
+    /// The reference distribution the relative effects are measured against.
+    pub reference: String,
+    /// Relative effect of every cell, cell order.
+    pub relative_effects: Vec<RelativeEffect>,
+    /// Per-term scale and degrees of freedom, canonical order.
+    pub terms: Vec<AtsTerm>,
 }

@@ -8,8 +8,10 @@
 //! Adding an engine: write `engines/<name>.rs` with a unit struct implementing
 //! [`Engine`], and add one line to [`registry`].
 
+pub mod art;
 pub mod classical;
 pub mod hc;
+pub mod rank_ats;
 pub mod trimmed;
 
 use crate::config::Settings;
@@ -47,7 +49,13 @@ pub trait Engine: Sync + Send {
 
 /// Every engine quorum has, in report order.
 pub fn registry() -> Vec<Box<dyn Engine>> {
-    vec![Box::new(classical::Classical), Box::new(hc::Hc), Box::new(trimmed::Trimmed)]
+    vec![
+        Box::new(classical::Classical),
+        Box::new(hc::Hc),
+        Box::new(trimmed::Trimmed),
+        Box::new(art::Art),
+        Box::new(rank_ats::RankAts),
+    ]
 }
 
 /// Ids of every engine, in report order.

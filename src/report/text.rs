@@ -3,7 +3,9 @@
 
 use super::table::{num, p_value, Align, Table};
 use super::Render;
-use crate::results::{Analysis, Decision, Details, EngineResult, Interval, Verdict, WelchJamesRow};
+use crate::results::{
+    Analysis, ArtDetails, Decision, Details, EngineResult, Interval, RankAtsDetails, Verdict, WelchJamesRow,
+};
 use std::io::{self, Write};
 
 /// The plain-text renderer.
@@ -181,6 +183,16 @@ fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
             writeln!(out, "{}", t.render(2))?;
         }
         Some(Details::Trimmed { trim, reference, terms, .. }) => trimmed_tests(e, *trim, reference, terms, out)?,
+        Some(Details::Art(d)) => {
+            generic_tests(e, out)?;
+            rank_effects(e, out)?;
+            art_details(d, out)?;
+        }
+        Some(Details::RankAts(d)) => {
+            generic_tests(e, out)?;
+            rank_effects(e, out)?;
+            ats_details(d, out)?;
+        }
         _ => generic_tests(e, out)?,
     }
     let mut t = Table::new(&[
@@ -266,6 +278,51 @@ fn generic_tests(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
         ]);
     }
     writeln!(out, "{}", t.render(2))
+}
+
+/// The headline effect of each term of a rank-based engine (named, since its scale differs).
+fn rank_effects(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
+    let mut t = Table::new(&[("term", Align::Left), ("effect", Align::Left), ("value", Align::Right)]);
+    let mut any = false;
+    for r in &e.terms {
+        if let Some(eff) = &r.effect {
+            any = true;
+            t.row(vec![r.term.clone(), eff.name.replace('_', " "), num(eff.value, 3)]);
+        }
+    }
+    if any {
+        writeln!(out, "  Effects")?;
+        writeln!(out, "{}", t.render(2))?;
+    }
+    Ok(())
+}
+
+fn art_details(d: &ArtDetails, out: &mut dyn Write) -> io::Result<()> {
+    let other = d.checks.iter().map(|c| c.max_other_ss_share).fold(0.0, f64::max);
+    let own = d.checks.iter().map(|c| c.target_ss_error_share).fold(0.0, f64::max);
+    writeln!(
+        out,
+        "  Alignment check passed: other terms' SS on the aligned responses ≤ {} of SST, own SS off by ≤ {} of SST (bound {})",
+        num(Some(other), 2),
+        num(Some(own), 2),
+        num(Some(d.checks.first().map(|c| c.bound).unwrap_or(0.0)), 2)
+    )?;
+    writeln!(
+        out,
+        "  Outcome ties: {} distinct values among {}, {}% of observations tied",
+        d.outcome_ties.distinct,
+        d.outcome_ties.n,
+        num(Some(100.0 * d.outcome_ties.tied_share), 3)
+    )
+}
+
+fn ats_details(d: &RankAtsDetails, out: &mut dyn Write) -> io::Result<()> {
+    writeln!(out, "  Relative effects ({}; against {})", d.ranks, d.reference)?;
+    let mut t = Table::new(&[("cell", Align::Left), ("n", Align::Right), ("relative effect", Align::Right)]);
+    for r in &d.relative_effects {
+        t.row(vec![r.levels.join(", "), r.n.to_string(), num(r.value, 3)]);
+    }
+    writeln!(out, "{}", t.render(4))
 }
 
 fn verdicts(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {

@@ -123,7 +123,7 @@ impl Stream {
     }
 
     /// Fisher–Yates/Durstenfeld shuffle of `a` in place: for k = len−1 down to 1,
-    /// j = bounded(k + 1), swap a[k], a[j].
+    /// j = bounded(k + 1), swap `a[k]` and `a[j]`.
     #[inline]
     pub fn shuffle<T>(&mut self, a: &mut [T]) {
         for k in (1..a.len()).rev() {

@@ -10,5 +10,6 @@ mod cli;
 mod descriptives;
 mod heteroscedastic;
 mod nist;
+mod rank;
 mod robustness;
 mod spreadsheet;

@@ -97,6 +97,7 @@ pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Res
     let start = text::check_text(bytes, loc)?;
     let body = &bytes[start..];
     let delimiter = text::detect_delimiter(body, spec.delimiter, spec.decimal_comma, loc)?;
+    text::check_quotes(body, delimiter, loc)?;
     let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).delimiter(delimiter).from_reader(body);
 
     let mut record = csv::ByteRecord::new();

@@ -107,6 +107,49 @@ pub fn check_text(bytes: &[u8], loc: &Location) -> Result<usize> {
     Ok(start)
 }
 
+/// Checks that every quoted field is closed. As in the CSV reader, a quote opens a
+/// quoted field only at the start of a field; inside it `""` is an escaped quote and a
+/// lone `"` closes it; elsewhere quotes are literal (`12"`). A quoted field still open at
+/// the end of the file would swallow the rest of the data silently.
+///
+/// # Errors
+/// The line where the unclosed quoted field starts.
+pub fn check_quotes(text: &[u8], delimiter: u8, loc: &Location) -> Result<()> {
+    let mut at_field_start = true;
+    let mut open_at: Option<usize> = None;
+    let mut i = 0;
+    while i < text.len() {
+        let b = text[i];
+        match open_at {
+            Some(_) => {
+                if b == b'"' {
+                    if text.get(i + 1) == Some(&b'"') {
+                        i += 1;
+                    } else {
+                        open_at = None;
+                        at_field_start = false;
+                    }
+                }
+            }
+            None => {
+                if b == b'"' && at_field_start {
+                    open_at = Some(i);
+                }
+                at_field_start = b == delimiter || b == b'\n' || b == b'\r';
+            }
+        }
+        i += 1;
+    }
+    match open_at {
+        None => Ok(()),
+        Some(pos) => Err(Error::input_hint(
+            loc.at_line(line_of(text, pos)),
+            "a quoted field that starts on this line is never closed, so it would swallow the rest of the file",
+            "close the quote, or remove it",
+        )),
+    }
+}
+
 /// Field counts of the first records when split by `delim` (quotes respected).
 fn field_counts(text: &[u8], delim: u8, max_records: usize) -> Vec<usize> {
     let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).delimiter(delim).from_reader(text);
@@ -189,6 +232,15 @@ mod tests {
         assert_eq!(detect_delimiter(b"y;a\n7,5;x\n", Delimiter::Auto, true, &loc()).unwrap(), b';');
         // Quoted commas do not count.
         assert_eq!(detect_delimiter(b"y;a\n1;\"x,y\"\n", Delimiter::Auto, false, &loc()).unwrap(), b';');
+    }
+
+    #[test]
+    fn unclosed_quotes_are_found_and_literal_quotes_pass() {
+        assert!(check_quotes(b"y,g\n1,\"a\"\"b\"\n", b',', &loc()).is_ok());
+        assert!(check_quotes(b"y,g\n1,12\"\n2,a\n", b',', &loc()).is_ok());
+        assert!(check_quotes(b"y,g\n1,\"a\nb\"\n", b',', &loc()).is_ok());
+        let e = check_quotes(b"y,g\n1,a\n2,\"b\n3,a\n", b',', &loc()).unwrap_err();
+        assert!(e.to_string().contains("line 3"), "{e}");
     }
 
     #[test]

@@ -5,6 +5,7 @@
 
 mod support;
 
+mod bad_inputs;
 mod classical;
 mod cli;
 mod descriptives;

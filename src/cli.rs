@@ -28,6 +28,13 @@ pub enum Command {
     Describe(RunArgs),
     /// Analyze the invented demo data compiled into quorum and write a report folder.
     Demo(DemoArgs),
+    /// Print a shell completion script (bash, zsh, fish, elvish, powershell).
+    Completions {
+        /// The shell.
+        shell: clap_complete::Shell,
+    },
+    /// Print the manual page (roff) on standard output.
+    Manpage,
 }
 
 /// Arguments of `analyze` and `describe`.
@@ -182,6 +189,8 @@ pub enum FormatArg {
     Text,
     /// The quorum.results/1 JSON object.
     Json,
+    /// The per-engine, per-term results as CSV.
+    Csv,
 }
 
 impl From<FormatArg> for Format {
@@ -189,6 +198,7 @@ impl From<FormatArg> for Format {
         match f {
             FormatArg::Text => Format::Text,
             FormatArg::Json => Format::Json,
+            FormatArg::Csv => Format::Csv,
         }
     }
 }
@@ -202,6 +212,9 @@ impl Cli {
         match self.command {
             Command::Analyze(a) => run_config(a, Job::Analyze, command),
             Command::Describe(a) => run_config(a, Job::Describe, command),
+            Command::Completions { .. } | Command::Manpage => {
+                Err(Error::usage("this command writes no analysis", "it is handled before the analysis starts"))
+            }
             Command::Demo(d) => {
                 let mut settings = settings(&d.engine)?;
                 settings.quiet = d.quiet;

@@ -239,6 +239,8 @@ pub enum Format {
     Text,
     /// The `quorum.results/1` JSON object.
     Json,
+    /// The per-engine, per-term results as CSV (guarded against formula injection).
+    Csv,
 }
 
 /// What to produce and where.

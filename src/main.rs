@@ -31,6 +31,11 @@ fn main() -> ExitCode {
 }
 
 fn run(cli: cli::Cli) -> Result<(), Error> {
+    match &cli.command {
+        cli::Command::Completions { shell } => return shell_integration(Some(*shell)),
+        cli::Command::Manpage => return shell_integration(None),
+        _ => {}
+    }
     let config = cli.into_config(command_line())?;
     let analysis = quorum::analysis::run(&config)?;
     let input = match &config.data.source {
@@ -52,6 +57,21 @@ fn run(cli: cli::Cli) -> Result<(), Error> {
         eprintln!("report folder: {}", display_dir(dir));
     }
     Ok(())
+}
+
+/// Completion script for `shell`, or the man page when `shell` is None, on stdout.
+fn shell_integration(shell: Option<clap_complete::Shell>) -> Result<(), Error> {
+    use clap::CommandFactory;
+    let mut cmd = cli::Cli::command();
+    let mut stdout = io::stdout().lock();
+    let written = match shell {
+        Some(shell) => {
+            clap_complete::generate(shell, &mut cmd, "quorum", &mut stdout);
+            Ok(())
+        }
+        None => clap_mangen::Man::new(cmd).render(&mut stdout),
+    };
+    written.map_err(|e| Error::Io { path: "<stdout>".into(), action: "writing", source: e })
 }
 
 fn display_dir(dir: &std::path::Path) -> String {

@@ -87,7 +87,8 @@ fn same_file(a: &Path, b: &Path) -> bool {
     }
 }
 
-/// Writes the report folder for `analysis`: `results.json`, `report.txt` and the marker.
+/// Writes the report folder for `analysis`: `results.json`, `report.txt`, the CSV tables
+/// (`terms.csv`, `cells.csv`, `marginal-means.csv`, `verdicts.csv`) and the marker.
 /// Returns the files written.
 ///
 /// # Errors
@@ -95,7 +96,14 @@ fn same_file(a: &Path, b: &Path) -> bool {
 pub fn write_report(dir: &Path, analysis: &crate::results::Analysis, input: Option<&Path>) -> Result<Vec<PathBuf>> {
     use super::{json::Json, text::Text, to_string};
     prepare(dir)?;
-    let files = [("results.json", to_string(&Json, analysis)), ("report.txt", to_string(&Text, analysis))];
+    let files = [
+        ("results.json", to_string(&Json, analysis)),
+        ("report.txt", to_string(&Text, analysis)),
+        ("terms.csv", super::csv::terms_table(analysis)),
+        ("cells.csv", super::csv::cells_table(analysis)),
+        ("marginal-means.csv", super::csv::marginal_means_table(analysis)),
+        ("verdicts.csv", super::csv::concordance_table(analysis)),
+    ];
     let mut written = Vec::new();
     for (name, body) in files {
         let path = dir.join(name);

@@ -1,6 +1,7 @@
 //! Rendering the one [`Analysis`] value: one renderer per format, each writing to
 //! `io::Write`, plus the report folder. Renderers format; they never compute statistics.
 
+pub mod csv;
 pub mod folder;
 pub mod json;
 pub mod table;
@@ -24,6 +25,7 @@ pub fn renderer(format: Format) -> Box<dyn Render> {
     match format {
         Format::Text => Box::new(text::Text),
         Format::Json => Box::new(json::Json),
+        Format::Csv => Box::new(csv::Csv),
     }
 }
 

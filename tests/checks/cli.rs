@@ -152,3 +152,37 @@ fn report_folders_of_the_user_are_never_touched() {
     assert_eq!(out.code, 0, "{}", out.stderr);
     assert!(d.join("fresh/results.json").exists() && d.join("fresh/report.txt").exists());
 }
+
+#[test]
+fn csv_export_and_report_tables() {
+    // Contract: one row per engine and term; text guarded against spreadsheet formulas.
+    let tmp = tempfile::tempdir().unwrap();
+    let d = tmp.path();
+    let data = write(d, "hostile.csv", "y,g\n1,=cmd\n2,+x\n3,=cmd\n4,+x\n5,=cmd\n");
+    let out = quorum(&["analyze", &data, "-y", "y", "-f", "g", "--format", "csv", "--report", "rep"], d, None);
+    assert_eq!(out.code, 0, "{}", out.stderr);
+    let lines: Vec<&str> = out.stdout.lines().collect();
+    assert!(lines[0].starts_with("engine,term,statistic,df1,df2,p,decision"), "{}", lines[0]);
+    let engines = quorum::engines::ids().len();
+    assert_eq!(lines.len(), 1 + engines, "{}", out.stdout);
+    let cells = std::fs::read_to_string(d.join("rep/cells.csv")).unwrap();
+    assert!(cells.contains("'=cmd") && cells.contains("'+x") && !cells.contains("\n=cmd"), "{cells}");
+    for f in ["terms.csv", "marginal-means.csv", "verdicts.csv", "results.json", "report.txt"] {
+        assert!(d.join("rep").join(f).exists(), "{f}");
+    }
+}
+
+#[test]
+fn completions_and_manual_page() {
+    let tmp = tempfile::tempdir().unwrap();
+    let bash = quorum(&["completions", "bash"], tmp.path(), None);
+    assert_eq!(bash.code, 0);
+    assert!(bash.stdout.contains("quorum") && bash.stdout.contains("analyze"));
+    let man = quorum(&["manpage"], tmp.path(), None);
+    assert_eq!(man.code, 0);
+    assert!(
+        man.stdout.contains(".TH") && man.stdout.contains("quorum"),
+        "{}",
+        &man.stdout[..200.min(man.stdout.len())]
+    );
+}

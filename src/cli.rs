@@ -126,6 +126,30 @@ pub struct EngineArgs {
     /// Engines to run, comma-separated (default: all).
     #[arg(long, value_name = "IDS", value_delimiter = ',')]
     pub engines: Option<Vec<String>>,
+    /// Points the sensitivity variant removes: far (beyond 3 × IQR), mad (calibrated MAD–median rule), none.
+    #[arg(long, value_enum, default_value_t = DropRuleArg::Far)]
+    pub drop_rule: DropRuleArg,
+}
+
+/// Removal rules of the sensitivity variant.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum DropRuleArg {
+    /// Tukey's far-out points (beyond 3 × IQR from the quartiles).
+    Far,
+    /// MAD–median rule with a cut-off calibrated to the cell sizes.
+    Mad,
+    /// No sensitivity variant.
+    None,
+}
+
+impl From<DropRuleArg> for quorum::config::DropRule {
+    fn from(d: DropRuleArg) -> Self {
+        match d {
+            DropRuleArg::Far => quorum::config::DropRule::Far,
+            DropRuleArg::Mad => quorum::config::DropRule::Mad,
+            DropRuleArg::None => quorum::config::DropRule::None,
+        }
+    }
 }
 
 /// Where results go.
@@ -261,6 +285,7 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         threads: e.threads,
         engines,
         quiet: false,
+        drop_rule: e.drop_rule.into(),
     })
 }
 

@@ -18,6 +18,7 @@
 //! * [`resample`] derives reproducible random streams for resampling engines.
 //! * [`engines`] holds one inference engine per file behind the [`engines::Engine`] trait.
 //! * [`diagnostics`] describes cells and checks assumptions; it never decides.
+//! * [`sensitivity`] reruns the engines without the points a drop rule flags (descriptive).
 //! * [`concordance`] compares the engines' decisions term by term.
 //! * [`report`] renders the one [`results::Analysis`] value; it never computes statistics.
 #![deny(missing_docs)]
@@ -36,6 +37,7 @@ pub mod model;
 pub mod report;
 pub mod resample;
 pub mod results;
+pub mod sensitivity;
 pub mod summary;
 
 pub use error::{Error, Result};

@@ -75,9 +75,19 @@ impl Diagnosis {
 }
 
 /// Runs every diagnostic of METHODS §2 and calibrates the flags with a null simulation
-/// seeded by `seed` (streams `Purpose::Auxiliary`). Never fails: degenerate cells give
-/// `None` values and structural flags.
+/// seeded by `seed` (streams `Purpose::Auxiliary`, [`calibration::null_datasets`]
+/// datasets with the design's cell sizes). Never fails: degenerate cells give `None`
+/// values and structural flags.
 pub fn diagnose(design: &Design, fit: &Fit, seed: u64) -> Diagnosis {
+    let reference =
+        NullReference::simulate(&design.cell_sizes(), seed, calibration::null_datasets(design.n_obs()));
+    diagnose_with(design, fit, &reference)
+}
+
+/// [`diagnose`] against a given null reference (which must have been simulated with
+/// this design's cell sizes). The calibration tests use it to judge many datasets of
+/// one design against one reference.
+pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> Diagnosis {
     let loc = design.location();
     let n_cells = design.n_cells();
     let sizes = design.cell_sizes();
@@ -208,8 +218,7 @@ pub fn diagnose(design: &Design, fit: &Fit, seed: u64) -> Diagnosis {
 
     // Calibration against normal data with these cell sizes.
     let observed = calibration::dataset_stats(cell_slices.iter().copied(), &mut Buffers::default());
-    let datasets = calibration::null_datasets(design.n_obs());
-    let reference = NullReference::simulate(&sizes, seed, datasets);
+    let datasets = reference.datasets;
     let mut checks = Vec::new();
     let mut check = |id: &str,
                      description: &str,

@@ -39,9 +39,29 @@ pub enum Code {
     MadZero,
     /// Structural: Levene/Brown–Forsythe undefined.
     HomogeneityUndefined,
-    /// Structural: few distinct values or many ties (ordinal or discrete outcome).
+    /// Structural: at most 10 distinct values (ordinal or discrete outcome).
     DiscreteOutcome,
+    /// Structural: more than 25% of observations tied (rounded or discrete measurements).
+    ManyTies,
 }
+
+/// Every flag code, in catalogue order.
+pub const ALL: [Code; 14] = [
+    Code::HeavyTails,
+    Code::SkewedResiduals,
+    Code::Outliers,
+    Code::FarOut,
+    Code::UnequalVariances,
+    Code::UnequalVariancesUnequalN,
+    Code::ConstantCell,
+    Code::SingleObservation,
+    Code::ShapiroNotApplicable,
+    Code::ShapiroLargeN,
+    Code::MadZero,
+    Code::HomogeneityUndefined,
+    Code::DiscreteOutcome,
+    Code::ManyTies,
+];
 
 impl Code {
     /// The code string in `diagnostics.flags[].code`.
@@ -60,6 +80,7 @@ impl Code {
             Code::MadZero => "mad-zero",
             Code::HomogeneityUndefined => "homogeneity-undefined",
             Code::DiscreteOutcome => "discrete-outcome",
+            Code::ManyTies => "many-ties",
         }
     }
 
@@ -145,22 +166,7 @@ mod tests {
 
     #[test]
     fn codes_are_unique() {
-        let all = [
-            Code::HeavyTails,
-            Code::SkewedResiduals,
-            Code::Outliers,
-            Code::FarOut,
-            Code::UnequalVariances,
-            Code::UnequalVariancesUnequalN,
-            Code::ConstantCell,
-            Code::SingleObservation,
-            Code::ShapiroNotApplicable,
-            Code::ShapiroLargeN,
-            Code::MadZero,
-            Code::HomogeneityUndefined,
-            Code::DiscreteOutcome,
-        ];
-        let ids: std::collections::BTreeSet<&str> = all.iter().map(|c| c.id()).collect();
-        assert_eq!(ids.len(), all.len());
+        let ids: std::collections::BTreeSet<&str> = ALL.iter().map(|c| c.id()).collect();
+        assert_eq!(ids.len(), ALL.len());
     }
 }

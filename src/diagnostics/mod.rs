@@ -33,6 +33,9 @@ use outliers::Rule;
 pub const N_RATIO_UNEQUAL: f64 = 1.5;
 /// Common practice (not a decision rule): |G1| and |G2| under 2 read as "close enough".
 pub const COMMON_PRACTICE_SHAPE_LIMIT: f64 = 2.0;
+/// |Spearman r| of cell size with variance from which the text names a direction
+/// (descriptive wording only; the flag itself rests on the calibrated variance ratio).
+pub const PAIRING_CLEAR: f64 = 0.3;
 /// At most this many distinct values marks a discrete outcome (METHODS §11.2 rule 1).
 pub const DISCRETE_MAX_DISTINCT: usize = 10;
 /// More than this share of tied observations marks a discrete outcome (METHODS App. B).
@@ -79,8 +82,7 @@ impl Diagnosis {
 /// datasets with the design's cell sizes). Never fails: degenerate cells give `None`
 /// values and structural flags.
 pub fn diagnose(design: &Design, fit: &Fit, seed: u64) -> Diagnosis {
-    let reference =
-        NullReference::simulate(&design.cell_sizes(), seed, calibration::null_datasets(design.n_obs()));
+    let reference = NullReference::simulate(&design.cell_sizes(), seed, calibration::null_datasets(design.n_obs()));
     diagnose_with(design, fit, &reference)
 }
 
@@ -195,9 +197,9 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
         )));
     }
 
-    // Discrete outcome: few distinct values or many ties.
-    if let Some(msg) = discreteness(design.y()) {
-        flags_out.push(Code::DiscreteOutcome.flag(msg));
+    // Discrete outcome: few distinct values, or many ties.
+    if let Some(flag) = discreteness(design.y()) {
+        flags_out.push(flag);
     }
 
     // Outlier list, by cell, rule, line.
@@ -346,15 +348,16 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
         )));
         if n_ratio > N_RATIO_UNEQUAL {
             let pairing = match n_variance_spearman {
-                Some(r) if r < 0.0 => format!(
+                Some(r) if r <= -PAIRING_CLEAR => format!(
                     "; larger cells have the smaller variances (Spearman r = {}), which makes the classical F liberal",
                     fmt2(r)
                 ),
-                Some(r) if r > 0.0 => format!(
+                Some(r) if r >= PAIRING_CLEAR => format!(
                     "; larger cells have the larger variances (Spearman r = {}), which makes the classical F conservative",
                     fmt2(r)
                 ),
-                _ => String::new(),
+                Some(r) => format!("; no clear pairing of cell size with variance (Spearman r = {})", fmt2(r)),
+                None => String::new(),
             };
             flags_out.push(Code::UnequalVariancesUnequalN.flag(format!(
                 "unequal variances with unequal cell sizes (largest/smallest n = {}){pairing}; prefer engines that allow unequal variances (Box 1954; Glass, Peckham & Sanders 1972; Blanca et al. 2018)",
@@ -383,7 +386,7 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     let far = Removal {
         rule: DropRule::Far,
         rows: far_rows,
-        description: format!("{} ({})", Rule::TukeyFar.describe(), outliers::QUANTILE_DEFINITION),
+        description: Rule::TukeyFar.describe().to_string(),
         null_rate: Some(reference.rate(|s| s.far > 0)),
     };
     let threshold = reference.mad_drop_threshold();
@@ -495,9 +498,11 @@ fn extreme_cells(with_var: &[usize], vars: &[Option<f64>]) -> (usize, usize) {
     (hi, lo)
 }
 
-/// A message when the outcome has ties and few distinct values or many tied
-/// observations (METHODS §2.5, §11.2 rule 1); continuous data never trigger it.
-fn discreteness(y: &[f64]) -> Option<String> {
+/// A flag when the outcome has ties and at most [`DISCRETE_MAX_DISTINCT`] distinct
+/// values (`discrete-outcome`, METHODS §11.2 rule 1) or more than
+/// [`DISCRETE_TIED_SHARE`] tied observations (`many-ties`, METHODS Appendix B);
+/// continuous data never trigger either.
+fn discreteness(y: &[f64]) -> Option<Flag> {
     let mut s = y.to_vec();
     s.sort_by(f64::total_cmp);
     let n = s.len();
@@ -519,12 +524,18 @@ fn discreteness(y: &[f64]) -> Option<String> {
         return None;
     }
     let share = tied as f64 / n as f64;
-    (distinct <= DISCRETE_MAX_DISTINCT || share > DISCRETE_TIED_SHARE).then(|| {
-        format!(
-            "the outcome has {distinct} distinct values and {:.0}% of observations share their value with another: an ordinal or discrete outcome, where rank-based engines suit better than methods for continuous data",
+    if distinct <= DISCRETE_MAX_DISTINCT {
+        Some(Code::DiscreteOutcome.flag(format!(
+            "the outcome takes only {distinct} distinct values: an ordinal or discrete outcome (e.g. a rating), where the rank-based ATS suits better than methods for continuous data and ART is not recommended"
+        )))
+    } else if share > DISCRETE_TIED_SHARE {
+        Some(Code::ManyTies.flag(format!(
+            "{:.0}% of observations share their value with another (rounded or discrete measurements): rank-based engines use mid-ranks, and ART is not recommended with heavy ties",
             share * 100.0
-        )
-    })
+        )))
+    } else {
+        None
+    }
 }
 
 fn fmt2(x: f64) -> String {

@@ -26,7 +26,7 @@ pub const MAD_MEDIAN_K: f64 = 2.24;
 pub const MAD_NORMAL_SCALE: f64 = 0.674_489_750_196_081_7;
 /// The quantile definition of the fences, printed with the results.
 pub const QUANTILE_DEFINITION: &str =
-    "Hyndman & Fan (1996) type 7 (numpy percentile method='linear'): h = (n−1)p + 1, linear interpolation";
+    "type 7 of Hyndman & Fan 1996, numpy's method='linear': h = (n−1)p + 1, linear interpolation";
 
 /// An outlier rule.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, PartialOrd, Ord)]
@@ -52,8 +52,8 @@ impl Rule {
     /// The rule in words.
     pub fn describe(self) -> &'static str {
         match self {
-            Rule::TukeyOutside => "beyond 1.5 × IQR from the quartiles (Tukey's outside points)",
-            Rule::TukeyFar => "beyond 3 × IQR from the quartiles (Tukey's far-out points)",
+            Rule::TukeyOutside => "beyond 1.5 × IQR from the type-7 quartiles of the cell (Tukey's outside points)",
+            Rule::TukeyFar => "beyond 3 × IQR from the type-7 quartiles of the cell (Tukey's far-out points)",
             Rule::MadMedian => "more than 2.24 MADN from the median (MAD–median rule)",
         }
     }

@@ -1,6 +1,7 @@
 //! Rendering the one [`Analysis`] value: one renderer per format, each writing to
 //! `io::Write`, plus the report folder. Renderers format; they never compute statistics.
 
+pub mod diagnostics_text;
 pub mod folder;
 pub mod json;
 pub mod table;

@@ -92,7 +92,11 @@ fn cells_residuals_and_homogeneity_match_scipy_on_every_dataset() {
         assert_p(bf.p, num(&entry["brown_forsythe"][1]), &format!("{name} Brown–Forsythe p"));
         // Ratios and pairing.
         assert_stat(d.variance_ratio.unwrap(), num(&entry["variance_ratio"]), &format!("{name} VR"));
-        assert_stat(d.robust_variance_ratio.unwrap(), num(&entry["robust_variance_ratio"]), &format!("{name} robust VR"));
+        assert_stat(
+            d.robust_variance_ratio.unwrap(),
+            num(&entry["robust_variance_ratio"]),
+            &format!("{name} robust VR"),
+        );
         assert_stat(d.n_ratio, num(&entry["n_ratio"]), &format!("{name} n ratio"));
         match (d.n_variance_spearman, entry["spearman_n_variance"].as_f64()) {
             (Some(g), Some(w)) => assert_stat(g, w, &format!("{name} Spearman")),
@@ -171,11 +175,11 @@ fn methods_12_1_table() {
     let bf = d.brown_forsythe.unwrap();
     assert_close(bf.f, 2.090586392, TABLE_ABS, 0.0, "§12.1 Brown–Forsythe W");
     assert_close(bf.p, 0.09148672229, TABLE_ABS, 0.0, "§12.1 Brown–Forsythe p");
-    // Only 13.8 in a2b1 (line 21 of methods12.csv: the 20th data row) by Tukey 1.5 and MAD–median.
+    // Only 13.8 in a2b1 (line 20 of methods12.csv, the first row of a2b1) by Tukey 1.5 and MAD–median.
     for rule in ["tukey-1.5", "mad-median"] {
         let hits: Vec<_> = d.outliers.iter().filter(|o| o.rule == rule).collect();
         assert_eq!(hits.len(), 1, "{rule}");
-        assert_eq!((hits[0].value, hits[0].cell.as_str()), (13.8, "A=a2, B=b1"), "{rule}");
+        assert_eq!((hits[0].line, hits[0].value, hits[0].cell.as_str()), (20, 13.8, "A=a2, B=b1"), "{rule}");
     }
 }
 

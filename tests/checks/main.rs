@@ -5,6 +5,7 @@
 
 mod support;
 
+mod calibration;
 mod classical;
 mod cli;
 mod descriptives;

@@ -22,6 +22,16 @@ fn pm(value: Option<f64>, se: Option<f64>) -> String {
     }
 }
 
+/// A data value with up to 8 significant digits and no trailing zeros.
+fn value_text(x: f64) -> String {
+    let s = num(Some(x), 8);
+    if s.contains('.') && !s.contains('e') {
+        s.trim_end_matches('0').trim_end_matches('.').to_string()
+    } else {
+        s
+    }
+}
+
 /// Degrees of freedom: whole numbers without decimals.
 fn df(x: f64) -> String {
     if x.fract() == 0.0 && x.abs() < 1e15 {
@@ -181,7 +191,7 @@ pub fn diagnostics(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
             ("rules", Align::Left),
         ]);
         for ((line, cell), (value, rules)) in by_line.iter().take(MAX_OUTLIER_ROWS) {
-            t.row(vec![line.to_string(), cell.clone(), num(Some(*value), 6), rules.join(", ")]);
+            t.row(vec![line.to_string(), cell.clone(), value_text(*value), rules.join(", ")]);
         }
         writeln!(out, "{}", t.render(2))?;
         if by_line.len() > MAX_OUTLIER_ROWS {

@@ -11,3 +11,4 @@ mod cli;
 mod descriptives;
 mod diagnostics;
 mod robustness;
+mod sensitivity;

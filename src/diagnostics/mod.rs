@@ -433,7 +433,10 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
         })
         .map(|c| names[c].clone())
         .collect();
-    notes.push(if beyond.is_empty() {
+    let any_shape = (0..n_cells).any(|c| crate::summary::skewness(cell_slices[c]).is_some());
+    notes.push(if !any_shape {
+        "common practice, decides nothing: |G1| and |G2| under 2 are often read as close enough to normal; no cell has the 3 or more varying values they need".to_string()
+    } else if beyond.is_empty() {
         "common practice, decides nothing: |G1| and |G2| under 2 are often read as close enough to normal; every cell is within it".to_string()
     } else {
         format!(

@@ -4,8 +4,9 @@
 //! Everything works on one cell's values at a time and returns positions within the
 //! cell, so the caller maps them to input lines (`Design::lines`). The same screening
 //! code runs on observed cells and on the simulated normal cells that calibrate the
-//! flags ([`super::calibration`]), which is why [`screen_sorted`] takes sorted data and
-//! a scratch buffer and allocates nothing.
+//! flags ([`super::calibration`]), which is why [`screen_unsorted`] works in place with
+//! order-statistic selection (O(n) per cell, no sort) and a scratch buffer, and
+//! allocates nothing.
 //!
 //! The raw rules flag most clean datasets in small cells (a 2 × 2 design with 5 normal
 //! values per cell has a far-out point 44% of the time with type-7 quartiles), so no
@@ -127,9 +128,67 @@ pub fn robust_summary(sorted: &[f64], scratch: &mut Vec<f64>) -> (f64, f64, f64,
     (q1, q3, m, madn)
 }
 
+/// The k-th and (k+1)-th smallest values (0-based) of `v`, reordering `v`; the second
+/// is the k-th again when k is the last index. O(n) by selection.
+fn order_pair(v: &mut [f64], k: usize) -> (f64, f64) {
+    let (_, kth, above) = v.select_nth_unstable_by(k, f64::total_cmp);
+    let a = *kth;
+    let b = above.iter().copied().fold(f64::INFINITY, f64::min);
+    (a, if above.is_empty() { a } else { b })
+}
+
+/// Type-7 quantile by selection (same arithmetic as [`summary::quantile_type7`]).
+fn quantile_select(v: &mut [f64], p: f64) -> f64 {
+    let n = v.len();
+    if n == 0 {
+        return f64::NAN;
+    }
+    let h = (n - 1) as f64 * p;
+    let lo = h.floor() as usize;
+    let frac = h - lo as f64;
+    let (a, b) = order_pair(v, lo);
+    if lo + 1 >= n {
+        a
+    } else {
+        a + frac * (b - a)
+    }
+}
+
+/// Median by selection (mean of the two middle values for even n).
+fn median_select(v: &mut [f64]) -> f64 {
+    let n = v.len();
+    if n == 0 {
+        return f64::NAN;
+    }
+    if n % 2 == 1 {
+        order_pair(v, n / 2).0
+    } else {
+        let (a, b) = order_pair(v, n / 2 - 1);
+        0.5 * (a + b)
+    }
+}
+
+/// Screening counts of one cell from its values in any order; `work` is reordered and
+/// `scratch` overwritten. Gives exactly the counts of [`screen`] (the same order
+/// statistics, found by selection instead of sorting).
+pub fn screen_unsorted(work: &mut [f64], scratch: &mut Vec<f64>) -> ScreenCounts {
+    let q1 = quantile_select(work, 0.25);
+    let q3 = quantile_select(work, 0.75);
+    let m = median_select(work);
+    scratch.clear();
+    scratch.extend(work.iter().map(|x| (x - m).abs()));
+    let madn = median_select(scratch) / MAD_NORMAL_SCALE;
+    counts_from(work, q1, q3, m, madn)
+}
+
 /// Screening counts of one cell given sorted values (no allocation beyond `scratch`).
 pub fn screen_sorted(sorted: &[f64], scratch: &mut Vec<f64>) -> ScreenCounts {
     let (q1, q3, m, madn) = robust_summary(sorted, scratch);
+    counts_from(sorted, q1, q3, m, madn)
+}
+
+fn counts_from(values: &[f64], q1: f64, q3: f64, m: f64, madn: f64) -> ScreenCounts {
+    let sorted = values;
     let iqr = q3 - q1;
     let (lo1, hi1) = (q1 - TUKEY_OUTSIDE * iqr, q3 + TUKEY_OUTSIDE * iqr);
     let (lo3, hi3) = (q1 - TUKEY_FAR * iqr, q3 + TUKEY_FAR * iqr);
@@ -146,8 +205,8 @@ pub fn screen_sorted(sorted: &[f64], scratch: &mut Vec<f64>) -> ScreenCounts {
         }
     }
     let max_mad_score = if madn > 0.0 {
-        let lo = sorted.first().copied().unwrap_or(m);
-        let hi = sorted.last().copied().unwrap_or(m);
+        let lo = sorted.iter().copied().fold(m, f64::min);
+        let hi = sorted.iter().copied().fold(m, f64::max);
         (m - lo).max(hi - m) / madn
     } else {
         f64::NAN
@@ -224,6 +283,20 @@ mod tests {
         assert_eq!(c.outside as usize, s.outside.len());
         assert_eq!(c.far as usize, s.far.len());
         assert_eq!(c.mad as usize, s.flagged(Rule::MadMedian).len());
+        // Selection gives the same order statistics as sorting, so identical results.
+        for data in [
+            v.to_vec(),
+            vec![3.0, 1.0, 2.0, 2.0],
+            vec![5.0],
+            vec![1.0, 9.0],
+            (0..101).map(|i| ((i * 37) % 101) as f64).collect(),
+        ] {
+            let mut work = data.clone();
+            let u = screen_unsorted(&mut work, &mut scratch);
+            let t = screen_sorted(&summary::sorted(&data), &mut scratch);
+            assert_eq!((u.outside, u.far, u.mad, u.madn), (t.outside, t.far, t.mad, t.madn), "{data:?}");
+            assert!(u.max_mad_score == t.max_mad_score || (u.max_mad_score.is_nan() && t.max_mad_score.is_nan()));
+        }
     }
 
     #[test]

@@ -198,3 +198,31 @@ fn moment_standard_errors_match_a_numpy_monte_carlo() {
         assert_close(se2, num(&r["sd_g2"]), MC_SD_REL, 0.0, &format!("n = {n} SE G2 vs Monte Carlo"));
     }
 }
+
+#[test]
+fn describe_prints_every_diagnostic_for_every_cell_and_no_tests() {
+    use quorum::report::{text::Text, to_string};
+    let fix = fixture("diagnostics");
+    let entry = &fix["datasets"]["penguins"];
+    let a = describe(entry);
+    let text = to_string(&Text, &a);
+    for want in [
+        "Shape, normality and outlying points by cell",
+        "pooled residuals (N = 333)",
+        "Brown–Forsythe",
+        "Calibrated checks",
+        "Flags",
+    ] {
+        assert!(text.contains(want), "missing `{want}`");
+    }
+    // Two rows per cell (cell summaries and the diagnostics table), each naming its levels.
+    for c in &a.design.cells {
+        let rows = text
+            .lines()
+            .filter(|l| l.split_whitespace().take(c.levels.len()).eq(c.levels.iter().map(String::as_str)))
+            .count();
+        assert_eq!(rows, 2, "rows for {:?}", c.levels);
+    }
+    assert!(!text.contains("Sensitivity variant") && !text.contains("Classical ANOVA"));
+    assert!(a.sensitivity.is_empty() && a.engines.is_empty());
+}

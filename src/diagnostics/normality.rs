@@ -57,9 +57,9 @@ const SMALL_MU: [f64; 4] = [0.5440, -0.39978, 0.025054, -0.0006714];
 const SMALL_SIGMA: [f64; 4] = [1.3822, -0.77857, 0.062767, -0.0020322];
 const LARGE_MU: [f64; 4] = [-1.5861, -0.31082, -0.083751, 0.0038915];
 const LARGE_SIGMA: [f64; 3] = [-0.4803, -0.082676, 0.0030302];
-/// p-value AS R94 returns when ln(1 − W) is beyond γ for 4 ≤ n ≤ 11 (practically
-/// unreachable; scipy's port uses the same constant).
-const SMALL_N_FLOOR_P: f64 = 1e-19;
+/// p-value returned when ln(1 − W) is at or beyond γ for 4 ≤ n ≤ 11 (METHODS §2.3: a
+/// tiny constant; practically unreachable, since W that small cannot occur at these n).
+const SMALL_N_FLOOR_P: f64 = 1e-99;
 
 /// The upper half of the antisymmetric coefficients: `a[j]` is the coefficient of the
 /// (n − j)-th order statistic (j = 0 the largest), a_(j+1) = −a[j] for the mirror.

@@ -632,6 +632,26 @@ mod tests {
     }
 
     #[test]
+    fn extreme_magnitudes_never_give_nan_or_panic() {
+        let d = Design::from_cells(
+            "y",
+            vec![factor("A", &["a1", "a2"]), factor("B", &["b1", "b2"])],
+            &[
+                vec![1e300, -1e300, 0.0, 5.0],
+                vec![1e-300, 2e-300, 3e-300],
+                vec![1.0, 2.0, 3.0],
+                vec![-1e300, 1e300, 7.0],
+            ],
+        )
+        .unwrap();
+        let fit = Fit::new(&d);
+        let dg = diagnose(&d, &fit, 3);
+        let json = serde_json::to_string(&dg.diagnostics).unwrap();
+        assert!(!json.contains("NaN") && !json.contains("Infinity"));
+        assert!(dg.diagnostics.flags.iter().all(|f| !f.message.contains("NaN") && !f.message.contains("inf ")));
+    }
+
+    #[test]
     fn removal_rules_name_canonical_rows() {
         let d = methods12();
         let fit = Fit::new(&d);

@@ -243,10 +243,27 @@ impl NullReference {
     /// strictly below it is removed; by exchangeability a normal dataset loses a point
     /// with probability at most k/(R + 1).
     pub fn mad_drop_threshold(&self) -> f64 {
+        self.mad_tail_threshold(DROP_LEVEL)
+    }
+
+    /// The k-th smallest simulated smallest-MAD-tail level, k = round(level·(R + 1)):
+    /// points strictly below it are beyond what normal data with these cell sizes give
+    /// in all but a share `level` of datasets.
+    pub fn mad_tail_threshold(&self, level: f64) -> f64 {
         let mut v: Vec<f64> = self.stats.iter().map(|s| s.min_mad_tail).collect();
         v.sort_unstable_by(f64::total_cmp);
-        let k = ((DROP_LEVEL * (self.datasets + 1) as f64).round() as usize).clamp(1, v.len().max(1));
+        let k = ((level * (self.datasets + 1) as f64).round() as usize).clamp(1, v.len().max(1));
         v.get(k - 1).copied().unwrap_or(0.0)
+    }
+
+    /// Monte Carlo p-value of a small observed value: (1 + #{simulated ≤ observed})/(R + 1).
+    /// `None` when the observed value is NaN.
+    pub fn p_lower(&self, observed: f64, stat: impl Fn(&DatasetStats) -> f64) -> Option<f64> {
+        if observed.is_nan() {
+            return None;
+        }
+        let le = self.stats.iter().filter(|s| stat(s) <= observed).count();
+        Some((1 + le) as f64 / (self.datasets + 1) as f64)
     }
 }
 

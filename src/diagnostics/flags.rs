@@ -18,7 +18,8 @@ pub enum Code {
     HeavyTails,
     /// Calibrated: pooled residual skewness (either sign) larger than normal data give.
     SkewedResiduals,
-    /// Calibrated: more MAD–median points than normal data give.
+    /// Calibrated: a point further from its cell median (in MADN, adjusted for cell
+    /// size) than normal data give; lists every such point.
     Outliers,
     /// Calibrated: more far-out points (3 × IQR) than normal data give; one flag per cell
     /// that has far-out points.

@@ -23,7 +23,7 @@ use crate::results::{
     finite, CalibratedCheck, Calibration, CellDiagnostics, Diagnostics, Flag, Outlier, ResidualShape, ShapiroWilk,
 };
 use calibration::{Buffers, DatasetStats, NullReference, FLAG_LEVEL};
-use flags::{lines_phrase, null_p_phrase, points, Code};
+use flags::{lines_phrase, null_p_phrase, Code};
 use homogeneity::{Centre, HomogeneityProblem};
 use outliers::Rule;
 
@@ -279,30 +279,63 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
             null_p_phrase(p_g1.unwrap_or(1.0), datasets)
         )));
     }
-    // MAD–median count.
+    // Outliers: the most extreme point by its n-adjusted MAD score (a max-type test).
+    let mut scored: Vec<(usize, usize, f64, f64)> = Vec::new(); // (cell, position, score, tail)
+    for c in 0..n_cells {
+        let s = &screens[c];
+        if s.madn <= 0.0 {
+            continue;
+        }
+        for (i, &v) in cell_slices[c].iter().enumerate() {
+            let score = (v - s.median).abs() / s.madn;
+            scored.push((c, i, score, outliers::mad_score_tail(score, sizes[c])));
+        }
+    }
+    let min_tail = observed.min_mad_tail;
+    let p_ext = if scored.is_empty() { None } else { reference.p_lower(min_tail, |s| s.min_mad_tail) };
+    check(
+        "most_extreme_point",
+        "most extreme point: n-adjusted tail level of its MAD score (small = extreme)",
+        min_tail,
+        &|s| s.min_mad_tail,
+        p_ext,
+        fires(p_ext),
+    );
+    if fires(p_ext) {
+        let cut = reference.mad_tail_threshold(FLAG_LEVEL);
+        let mut beyond: Vec<&(usize, usize, f64, f64)> = scored.iter().filter(|x| x.3 < cut).collect();
+        beyond.sort_by(|a, b| a.3.total_cmp(&b.3));
+        let listed: Vec<String> = beyond
+            .iter()
+            .take(10)
+            .map(|&&(c, i, score, _)| {
+                format!(
+                    "line {} (cell {}, {} MADN from the median)",
+                    lines[design.cell_range(c).start + i],
+                    names[c],
+                    fmt2(score)
+                )
+            })
+            .collect();
+        let more = if beyond.len() > 10 { format!(" and {} more", beyond.len() - 10) } else { String::new() };
+        flags_out.push(Code::Outliers.flag(format!(
+            "{} further from their cell median than normal data with these cell sizes produce: {}{more} ({} for the most extreme)",
+            if beyond.len() == 1 { "1 point lies".to_string() } else { format!("{} points lie", beyond.len()) },
+            listed.join("; "),
+            null_p_phrase(p_ext.unwrap_or(1.0), datasets)
+        )));
+    }
+    // MAD–median count (information).
     let mad_count = observed.mad as f64;
     let p_mad = reference.p_upper(mad_count, |s| s.mad as f64);
-    let mad_mean = reference.mean(|s| s.mad as f64);
     check(
         "mad_median_count",
-        "points more than 2.24 MADN from their cell median, all cells",
+        "points more than 2.24 MADN from their cell median, all cells (information; raises no flag)",
         mad_count,
         &|s| s.mad as f64,
         p_mad,
-        fires(p_mad),
+        false,
     );
-    if fires(p_mad) {
-        let mut mad_lines: Vec<u64> =
-            outliers_out.iter().filter(|o| o.rule == Rule::MadMedian.id()).map(|o| o.line).collect();
-        mad_lines.sort_unstable();
-        flags_out.push(Code::Outliers.flag(format!(
-            "{} lie more than 2.24 MADN from their cell median ({}), where normal data with these cell sizes give {:.1} on average ({})",
-            points(observed.mad as usize),
-            lines_phrase(&mad_lines),
-            mad_mean,
-            null_p_phrase(p_mad.unwrap_or(1.0), datasets)
-        )));
-    }
     // Far-out count.
     let far_count = observed.far as f64;
     let p_far = reference.p_upper(far_count, |s| s.far as f64);
@@ -390,19 +423,8 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
         null_rate: Some(reference.rate(|s| s.far > 0)),
     };
     let threshold = reference.mad_drop_threshold();
-    let mut mad_rows = Vec::new();
-    for c in 0..n_cells {
-        let s = &screens[c];
-        if s.madn <= 0.0 {
-            continue;
-        }
-        let start = design.cell_range(c).start;
-        for (i, &v) in cell_slices[c].iter().enumerate() {
-            if outliers::mad_score_tail((v - s.median).abs() / s.madn, sizes[c]) < threshold {
-                mad_rows.push(start + i);
-            }
-        }
-    }
+    let mad_rows: Vec<usize> =
+        scored.iter().filter(|x| x.3 < threshold).map(|&(c, i, _, _)| design.cell_range(c).start + i).collect();
     let mut distinct_n: Vec<usize> = sizes.clone();
     distinct_n.sort_unstable();
     distinct_n.dedup();

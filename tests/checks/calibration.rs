@@ -75,6 +75,15 @@ fn factor(name: &str, k: usize) -> Factor {
 
 /// Judges `datasets` clean datasets with cell sizes `sizes` (a `a × b` design).
 fn rates(a: usize, b: usize, sizes: &[usize], datasets: usize) -> Rates {
+    rates_of(a, b, sizes, datasets, &|_, _, z| z)
+}
+
+/// Clean data transformed value by value: `error(stream, cell, z)` turns a standard
+/// normal draw of cell `c` into the error added to the cell mean (identity: the null).
+type ErrorModel = dyn Fn(&mut Stream, usize, f64) -> f64;
+
+/// Firing rates when the errors follow `error` (see [`rates`]).
+fn rates_of(a: usize, b: usize, sizes: &[usize], datasets: usize, error: &ErrorModel) -> Rates {
     assert_eq!(sizes.len(), a * b);
     let n_obs: usize = sizes.iter().sum();
     let reference = NullReference::simulate(sizes, DEFAULT_SEED, null_datasets(n_obs));
@@ -101,7 +110,10 @@ fn rates(a: usize, b: usize, sizes: &[usize], datasets: usize) -> Rates {
             .iter()
             .enumerate()
             .map(|(c, &n)| {
-                let v = buf[start..start + n].iter().map(|z| 50.0 + 3.0 * c as f64 + 2.5 * z).collect();
+                let v = buf[start..start + n]
+                    .iter()
+                    .map(|&z| 50.0 + 3.0 * c as f64 + 2.5 * error(&mut stream, c, z))
+                    .collect();
                 start += n;
                 v
             })
@@ -177,6 +189,37 @@ fn calibrated_flags_fire_on_about_1_percent_of_clean_datasets() {
 fn calibration_holds_in_an_unbalanced_design() {
     let r = rates(2, 3, &[5, 8, 12, 20, 6, 30], 600);
     check(&r, "2×3 unbalanced (5, 8, 12, 20, 6, 30)");
+}
+
+#[test]
+fn calibrated_flags_fire_on_data_that_break_the_assumptions() {
+    // Power, so that the calibration tests above cannot pass by flags that never fire.
+    // 2 × 2 designs, 200 datasets each; departures of our own choosing (invented).
+    let sizes = [20usize; 4];
+    let m = 200;
+    // Right-skewed errors (lognormal).
+    let r = rates_of(2, 2, &sizes, m, &|_, _, z| z.exp());
+    eprintln!("{}", r.line("lognormal errors"));
+    assert!(r.flag("skewed-residuals") > 0.9, "skew power {}", r.flag("skewed-residuals"));
+    assert!(r.flag("heavy-tails") > 0.5, "kurtosis power {}", r.flag("heavy-tails"));
+    // Contaminated normal: 10% of errors five times as spread out.
+    let r = rates_of(2, 2, &sizes, m, &|s, _, z| if s.uniform() < 0.1 { 5.0 * z } else { z });
+    eprintln!("{}", r.line("10% contaminated normal"));
+    assert!(r.flag("heavy-tails") > 0.7, "kurtosis power {}", r.flag("heavy-tails"));
+    assert!(r.flag("outliers") > 0.5, "extreme-point power {}", r.flag("outliers"));
+    // One gross error (+12 sd) in each cell.
+    let r = rates_of(2, 2, &sizes, m, &|s, _, z| if s.uniform() < 0.05 { z + 12.0 } else { z });
+    eprintln!("{}", r.line("5% gross errors"));
+    assert!(r.flag("far-out") > 0.5, "far-out power {}", r.flag("far-out"));
+    assert!(r.flag("outliers") > 0.8, "extreme-point power {}", r.flag("outliers"));
+    // Unequal variances: sd three times larger in the last cell.
+    let r = rates_of(2, 2, &sizes, m, &|_, c, z| if c == 3 { 3.0 * z } else { z });
+    eprintln!("{}", r.line("sd ×3 in one cell"));
+    assert!(r.flag("unequal-variances") > 0.9, "variance power {}", r.flag("unequal-variances"));
+    // ... and with the large variance in the small cell of an unbalanced design.
+    let r = rates_of(2, 2, &[10, 20, 20, 30], m, &|_, c, z| if c == 0 { 3.0 * z } else { z });
+    eprintln!("{}", r.line("sd ×3 in the smallest cell, n 10/20/20/30"));
+    assert!(r.flag("unequal-variances-unequal-n") > 0.7, "pairing power {}", r.flag("unequal-variances-unequal-n"));
 }
 
 #[test]

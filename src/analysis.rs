@@ -50,7 +50,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         cells: cells::cell_table(design, settings.trim, settings.ci_level),
         marginal_means: cells::marginal_means(design, &fit, settings.ci_level),
     };
-    let diagnostics = diagnostics::diagnose(design, &fit);
+    let diagnosis = diagnostics::diagnose(design, &fit, settings.seed);
     let (engine_results, concordance) = match config.job {
         Job::Describe => (Vec::new(), Vec::new()),
         Job::Analyze => {
@@ -62,6 +62,14 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
             (results, conc)
         }
     };
+    // Sensitivity variant without the points of the drop rule (descriptive).
+    let sensitivity = match (config.job, diagnosis.removal(settings.drop_rule)) {
+        (Job::Analyze, Some(removal)) => {
+            vec![crate::sensitivity::variant(design, settings, removal, &engine_results, &concordance)?]
+        }
+        _ => Vec::new(),
+    };
+    let diagnostics = diagnosis.diagnostics;
     Ok(Analysis {
         schema: SCHEMA,
         input,
@@ -69,7 +77,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         diagnostics,
         engines: engine_results,
         concordance,
-        sensitivity: Vec::new(),
+        sensitivity,
         followup: Vec::new(),
         reproducibility: Reproducibility {
             version: env!("CARGO_PKG_VERSION").to_string(),

@@ -145,6 +145,9 @@ pub struct EngineArgs {
     /// Heteroscedasticity-consistent covariance of the `hc` engine: 0, 1, 2, 3 or 4.
     #[arg(long, value_name = "0-4", default_value_t = 3, value_parser = clap::value_parser!(u8).range(0..=4))]
     pub hc: u8,
+    /// Points the sensitivity variant removes: far (beyond 3 × IQR), mad (calibrated MAD–median rule), none.
+    #[arg(long, value_enum, default_value_t = DropRuleArg::Far)]
+    pub drop_rule: DropRuleArg,
 }
 
 /// Reference distributions of the trimmed-means test.
@@ -164,6 +167,27 @@ impl From<WjReferenceArg> for WjReference {
             WjReferenceArg::F => WjReference::F,
             WjReferenceArg::Adjusted => WjReference::Adjusted,
             WjReferenceArg::Bootstrap => WjReference::Bootstrap,
+        }
+    }
+}
+
+/// Removal rules of the sensitivity variant.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum DropRuleArg {
+    /// Tukey's far-out points (beyond 3 × IQR from the quartiles).
+    Far,
+    /// MAD–median rule with a cut-off calibrated to the cell sizes.
+    Mad,
+    /// No sensitivity variant.
+    None,
+}
+
+impl From<DropRuleArg> for quorum::config::DropRule {
+    fn from(d: DropRuleArg) -> Self {
+        match d {
+            DropRuleArg::Far => quorum::config::DropRule::Far,
+            DropRuleArg::Mad => quorum::config::DropRule::Mad,
+            DropRuleArg::None => quorum::config::DropRule::None,
         }
     }
 }
@@ -310,6 +334,7 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         quiet: false,
         wj_reference: e.wj_reference.into(),
         hc: HcType::ALL[usize::from(e.hc.min(4))],
+        drop_rule: e.drop_rule.into(),
     })
 }
 

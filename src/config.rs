@@ -207,6 +207,8 @@ pub struct Settings {
     pub wj_reference: WjReference,
     /// HC covariance type of the `hc` engine (default HC3).
     pub hc: HcType,
+    /// Which points the sensitivity variant removes (default far-out points).
+    pub drop_rule: DropRule,
 }
 
 /// The default seed of every random stream (METHODS §10.2).
@@ -228,6 +230,7 @@ impl Default for Settings {
             quiet: false,
             wj_reference: WjReference::F,
             hc: HcType::Hc3,
+            drop_rule: DropRule::Far,
         }
     }
 }
@@ -274,4 +277,29 @@ pub struct Config {
     pub output: OutputSpec,
     /// The command line as typed, for the reproducibility block.
     pub command: String,
+}
+
+/// Which points the sensitivity variant of `analyze` removes before rerunning every
+/// engine (DESIGN.md "Outlier rules and the sensitivity variant"; METHODS Overrides 9).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum DropRule {
+    /// Tukey's far-out points: beyond 3 × IQR from the type-7 quartiles of their cell.
+    #[default]
+    Far,
+    /// The MAD–median rule with a cut-off adjusted to the cell sizes, calibrated so that
+    /// at most 5% of normal, equal-variance datasets lose a point.
+    Mad,
+    /// No sensitivity variant.
+    None,
+}
+
+impl DropRule {
+    /// The id used on the command line and in `sensitivity[].rule`.
+    pub fn id(self) -> &'static str {
+        match self {
+            DropRule::Far => "far",
+            DropRule::Mad => "mad",
+            DropRule::None => "none",
+        }
+    }
 }

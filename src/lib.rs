@@ -19,6 +19,7 @@
 //! * [`resample`] derives reproducible random streams for resampling engines.
 //! * [`engines`] holds one inference engine per file behind the [`engines::Engine`] trait.
 //! * [`diagnostics`] describes cells and checks assumptions; it never decides.
+//! * [`sensitivity`] reruns the engines without the points a drop rule flags (descriptive).
 //! * [`concordance`] compares the engines' decisions term by term.
 //! * [`robust`] holds trimmed-mean building blocks (Welch–James, Yuen, robust d).
 //! * [`report`] renders the one [`results::Analysis`] value; it never computes statistics.
@@ -40,6 +41,7 @@ pub mod report;
 pub mod resample;
 pub mod results;
 pub mod robust;
+pub mod sensitivity;
 pub mod summary;
 
 pub use error::{Error, Result};

@@ -210,6 +210,92 @@ pub struct Diagnostics {
     pub n_ratio: f64,
     /// Findings.
     pub flags: Vec<Flag>,
+    /// Skewness and excess kurtosis of the pooled full-model residuals, with SEs.
+    pub residuals: Option<ResidualShape>,
+    /// Largest over smallest cell MADN² (a variance ratio resistant to outliers).
+    pub robust_variance_ratio: Option<f64>,
+    /// Spearman correlation of cell sizes with cell variances (negative: larger cells
+    /// have smaller variances, which makes the classical F liberal).
+    pub n_variance_spearman: Option<f64>,
+    /// Quantile definition of the quartiles and fences.
+    pub quantile_definition: String,
+    /// Robust summaries and outlier counts of every cell, in cell order.
+    pub cells: Vec<CellDiagnostics>,
+    /// How the flags were calibrated, with each statistic's null p-value.
+    pub calibration: Option<Calibration>,
+    /// Information that decides nothing (e.g. common-practice rules of thumb).
+    pub notes: Vec<String>,
+}
+
+/// Shape of the pooled residuals y − ȳ_c (descriptive: residuals are not independent).
+#[derive(Debug, Clone, Serialize)]
+pub struct ResidualShape {
+    /// Number of residuals N.
+    pub n: usize,
+    /// Bias-adjusted skewness G1.
+    pub skewness: Option<f64>,
+    /// Standard error of G1 under normality.
+    pub skewness_se: Option<f64>,
+    /// Bias-adjusted excess kurtosis G2.
+    pub excess_kurtosis: Option<f64>,
+    /// Standard error of G2 under normality.
+    pub excess_kurtosis_se: Option<f64>,
+}
+
+/// Robust summaries and outlier counts of one cell (outcome units).
+#[derive(Debug, Clone, Serialize)]
+pub struct CellDiagnostics {
+    /// Cell name, e.g. `A=a1, B=b2`.
+    pub cell: String,
+    /// Observations.
+    pub n: usize,
+    /// First quartile (type 7).
+    pub q1: Option<f64>,
+    /// Third quartile (type 7).
+    pub q3: Option<f64>,
+    /// Median absolute deviation scaled to σ under normality (MAD/Φ⁻¹(0.75)).
+    pub madn: Option<f64>,
+    /// Points beyond 1.5 × IQR from the quartiles.
+    pub outside: usize,
+    /// Points beyond 3 × IQR from the quartiles.
+    pub far_out: usize,
+    /// Points flagged by the MAD–median rule; null when MADN = 0 (rule not applicable).
+    pub mad_median: Option<usize>,
+    /// Why Shapiro–Wilk was not computed in this cell, when it was not.
+    pub shapiro_wilk_not_applicable: Option<String>,
+}
+
+/// A statistic compared with its distribution under normal, equal-variance data of
+/// the same cell sizes.
+#[derive(Debug, Clone, Serialize)]
+pub struct CalibratedCheck {
+    /// Id, e.g. `residual_excess_kurtosis`.
+    pub id: String,
+    /// What the statistic is.
+    pub description: String,
+    /// Observed value.
+    pub value: Option<f64>,
+    /// Average of the statistic over the simulated normal datasets.
+    pub null_mean: Option<f64>,
+    /// Median of the statistic over the simulated normal datasets.
+    pub null_median: Option<f64>,
+    /// Monte Carlo p-value (1 + #{simulated ≥ observed})/(R + 1).
+    pub null_p: Option<f64>,
+    /// Whether the check raised its flag (null_p ≤ level, and any extra condition).
+    pub flagged: bool,
+}
+
+/// How the flags were calibrated.
+#[derive(Debug, Clone, Serialize)]
+pub struct Calibration {
+    /// The method in words.
+    pub method: String,
+    /// Simulated datasets R.
+    pub datasets: u64,
+    /// A flag fires when its null p is at most this.
+    pub level: f64,
+    /// Each calibrated statistic.
+    pub checks: Vec<CalibratedCheck>,
 }
 
 /// Decision of one engine on one term.
@@ -492,6 +578,13 @@ pub struct Sensitivity {
     pub engines: Vec<EngineResult>,
     /// Verdicts on the modified data.
     pub concordance: Vec<Concordance>,
+    /// The removal rule in words, with its cut-offs.
+    pub description: String,
+    /// Share of simulated normal, equal-variance datasets with these cell sizes from
+    /// which the rule removes at least one point.
+    pub null_removal_rate: Option<f64>,
+    /// Remarks (the p-values are descriptive; not-applicable reasons).
+    pub notes: Vec<String>,
 }
 
 /// Follow-up tests of one effect.

@@ -361,6 +361,56 @@ impl Design {
     }
 }
 
+impl Design {
+    /// The same design without the observations at the given canonical positions
+    /// (sensitivity variants): factors, levels and cell structure are kept, every
+    /// observation that is not dropped keeps its value, line and order, and every
+    /// derived quantity is recomputed from the kept rows by whoever uses the new design.
+    /// Positions out of range are ignored.
+    ///
+    /// # Errors
+    /// Exit 3 when a cell would be left empty (the caller turns this into
+    /// `not_applicable` results for a variant).
+    pub fn without_observations(&self, drop: &[usize]) -> Result<Design> {
+        let mut keep = vec![true; self.y.len()];
+        for &i in drop {
+            if let Some(k) = keep.get_mut(i) {
+                *k = false;
+            }
+        }
+        let mut cell_start = Vec::with_capacity(self.cell_start.len());
+        cell_start.push(0);
+        let mut y = Vec::with_capacity(self.y.len());
+        let mut lines = Vec::with_capacity(self.y.len());
+        let mut empty = Vec::new();
+        for c in 0..self.n_cells() {
+            let before = y.len();
+            for i in self.cell_range(c) {
+                if keep[i] {
+                    y.push(self.y[i]);
+                    lines.push(self.lines[i]);
+                }
+            }
+            if y.len() == before {
+                empty.push(c);
+            }
+            cell_start.push(y.len());
+        }
+        if !empty.is_empty() {
+            let names: Vec<String> = empty.iter().map(|&c| format!("({})", self.layout.cell_name(c))).collect();
+            return Err(Error::impossible(format!("removing the points leaves {} empty", names.join(", "))));
+        }
+        Ok(Design {
+            outcome: self.outcome.clone(),
+            layout: self.layout.clone(),
+            cell_start,
+            y,
+            location: self.location,
+            lines,
+        })
+    }
+}
+
 /// Order of a factor's labels: user-given, numeric, or code-point order.
 fn level_order(col: &FactorColumn, user: Option<&Vec<String>>) -> Result<Vec<usize>> {
     let labels = &col.labels;

@@ -44,7 +44,7 @@ pub fn cell_table(design: &Design, trim: f64, ci_level: f64) -> Vec<CellSummary>
                 excess_kurtosis_se: summary::excess_kurtosis_se(n),
                 min: loc + order.min,
                 max: loc + order.max,
-                shapiro_wilk: None,
+                shapiro_wilk: super::normality::shapiro_wilk(v).ok().and_then(super::sw_result),
             }
         })
         .collect()

@@ -2,6 +2,7 @@
 //! `io::Write`, plus the report folder. Renderers format; they never compute statistics.
 
 pub mod csv;
+pub mod diagnostics_text;
 pub mod folder;
 pub mod json;
 pub mod table;

@@ -21,6 +21,7 @@ impl Render for Text {
             engine(e, out)?;
         }
         verdicts(a, out)?;
+        super::diagnostics_text::sensitivity(a, out)?;
         footer(a, out)
     }
 }
@@ -144,18 +145,7 @@ fn marginals(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
 }
 
 fn diagnostics(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
-    let d = &a.diagnostics;
-    writeln!(out, "Spread and balance")?;
-    writeln!(
-        out,
-        "  largest/smallest cell variance {}; largest/smallest cell size {}",
-        num(d.variance_ratio, 3),
-        num(Some(d.n_ratio), 3)
-    )?;
-    for f in &d.flags {
-        writeln!(out, "  ! {}", f.message)?;
-    }
-    writeln!(out)
+    super::diagnostics_text::diagnostics(a, out)
 }
 
 fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {

@@ -6,11 +6,14 @@
 mod support;
 
 mod bad_inputs;
+mod calibration;
 mod classical;
 mod cli;
 mod descriptives;
+mod diagnostics;
 mod heteroscedastic;
 mod nist;
 mod rank;
 mod robustness;
+mod sensitivity;
 mod spreadsheet;

@@ -1,0 +1,247 @@
+//! False-flag rates of the diagnostics under the null model (METHODS Overrides 8,
+//! DESIGN.md "Outlier rules and the sensitivity variant").
+//!
+//! Clean datasets — normal errors, equal variances, arbitrary cell means and scale —
+//! are drawn from quorum's own streams (`Purpose::Auxiliary`, a sub-stream of their
+//! own, so the data never share draws with the reference simulation) and judged by the
+//! real `diagnose_with` code path against the reference that `diagnose` would simulate
+//! for that design with the default seed. Every calibrated flag must fire on about
+//! `FLAG_LEVEL` (1%) of them, and "any calibrated flag" on at most about 5%; the raw
+//! rules of thumb are measured beside them to show why they are not used.
+//!
+//! The small versions run in `cargo test`; the large one is
+//! `cargo test --release --test checks calibration::large -- --ignored --nocapture`
+//! (figures in DEVELOPERS.md).
+
+use quorum::config::{Job, DEFAULT_SEED};
+use quorum::design::{Design, Factor};
+use quorum::diagnostics::calibration::{fill_normal, null_datasets, NullReference, DROP_LEVEL, FLAG_LEVEL};
+use quorum::diagnostics::diagnose_with;
+use quorum::model::Fit;
+use quorum::resample::{Purpose, Stream, StreamKey};
+use std::collections::BTreeMap;
+
+/// Sub-stream of the clean test datasets (distinct from the diagnostics' own "DIAG").
+const AUX_CLEAN_DATA: u64 = 0xC1EA_0DA7;
+
+/// Firing rates over `datasets` clean datasets of one design.
+struct Rates {
+    datasets: usize,
+    flags: BTreeMap<String, usize>,
+    any_calibrated: usize,
+    raw_any_mad: usize,
+    raw_any_cell_g2_above_3: usize,
+    raw_vr_above_1_5: usize,
+    far_rule_removes: usize,
+    mad_rule_removes: usize,
+}
+
+impl Rates {
+    fn rate(&self, k: usize) -> f64 {
+        k as f64 / self.datasets as f64
+    }
+
+    fn flag(&self, code: &str) -> f64 {
+        self.rate(self.flags.get(code).copied().unwrap_or(0))
+    }
+
+    fn line(&self, label: &str) -> String {
+        let codes = [
+            "heavy-tails",
+            "skewed-residuals",
+            "outliers",
+            "far-out",
+            "unequal-variances",
+            "unequal-variances-unequal-n",
+        ];
+        let per: Vec<String> = codes.iter().map(|c| format!("{c} {:.3}", self.flag(c))).collect();
+        format!(
+            "{label}: {}; any calibrated {:.3}; drop far {:.3}, drop mad {:.3}; raw rules: any MAD–median {:.3}, any cell G2 > 3 {:.3}, VR > 1.5 {:.3} ({} datasets)",
+            per.join(", "),
+            self.rate(self.any_calibrated),
+            self.rate(self.far_rule_removes),
+            self.rate(self.mad_rule_removes),
+            self.rate(self.raw_any_mad),
+            self.rate(self.raw_any_cell_g2_above_3),
+            self.rate(self.raw_vr_above_1_5),
+            self.datasets
+        )
+    }
+}
+
+fn factor(name: &str, k: usize) -> Factor {
+    Factor { name: name.into(), levels: (1..=k).map(|i| format!("{name}{i}")).collect(), measured: false }
+}
+
+/// Judges `datasets` clean datasets with cell sizes `sizes` (a `a × b` design).
+fn rates(a: usize, b: usize, sizes: &[usize], datasets: usize) -> Rates {
+    rates_of(a, b, sizes, datasets, &|_, _, z| z)
+}
+
+/// Clean data transformed value by value: `error(stream, cell, z)` turns a standard
+/// normal draw of cell `c` into the error added to the cell mean (identity: the null).
+type ErrorModel = dyn Fn(&mut Stream, usize, f64) -> f64;
+
+/// Firing rates when the errors follow `error` (see [`rates`]).
+fn rates_of(a: usize, b: usize, sizes: &[usize], datasets: usize, error: &ErrorModel) -> Rates {
+    assert_eq!(sizes.len(), a * b);
+    let n_obs: usize = sizes.iter().sum();
+    let reference = NullReference::simulate(sizes, DEFAULT_SEED, null_datasets(n_obs));
+    let mut r = Rates {
+        datasets,
+        flags: BTreeMap::new(),
+        any_calibrated: 0,
+        raw_any_mad: 0,
+        raw_any_cell_g2_above_3: 0,
+        raw_vr_above_1_5: 0,
+        far_rule_removes: 0,
+        mad_rule_removes: 0,
+    };
+    let mut buf = vec![0.0; n_obs];
+    for d in 0..datasets {
+        let mut stream = Stream::new(
+            DEFAULT_SEED,
+            StreamKey { purpose: Purpose::Auxiliary, term: 0, chunk: d as u64, aux: AUX_CLEAN_DATA },
+        );
+        fill_normal(&mut stream, &mut buf);
+        // Arbitrary cell means and a common scale: the null model has no free parameter.
+        let mut start = 0;
+        let cells: Vec<Vec<f64>> = sizes
+            .iter()
+            .enumerate()
+            .map(|(c, &n)| {
+                let v = buf[start..start + n]
+                    .iter()
+                    .map(|&z| 50.0 + 3.0 * c as f64 + 2.5 * error(&mut stream, c, z))
+                    .collect();
+                start += n;
+                v
+            })
+            .collect();
+        let design = Design::from_cells("y", vec![factor("A", a), factor("B", b)], &cells).unwrap();
+        let fit = Fit::new(&design);
+        let dg = diagnose_with(&design, &fit, &reference);
+        let codes: std::collections::BTreeSet<&str> = dg.diagnostics.flags.iter().map(|f| f.code.as_str()).collect();
+        for c in &codes {
+            *r.flags.entry(c.to_string()).or_default() += 1;
+        }
+        let calibrated = [
+            "heavy-tails",
+            "skewed-residuals",
+            "outliers",
+            "far-out",
+            "unequal-variances",
+            "unequal-variances-unequal-n",
+        ];
+        r.any_calibrated += calibrated.iter().any(|c| codes.contains(c)) as usize;
+        r.raw_any_mad += dg.diagnostics.outliers.iter().any(|o| o.rule == "mad-median") as usize;
+        r.raw_any_cell_g2_above_3 +=
+            cells.iter().any(|c| quorum::summary::excess_kurtosis(c).is_some_and(|g| g > 3.0)) as usize;
+        r.raw_vr_above_1_5 += dg.diagnostics.variance_ratio.is_some_and(|v| v > 1.5) as usize;
+        r.far_rule_removes += !dg.far.rows.is_empty() as usize;
+        r.mad_rule_removes += !dg.mad.rows.is_empty() as usize;
+    }
+    r
+}
+
+/// Upper bound for a rate whose null value is `level`, with `m` datasets: level plus
+/// four binomial standard errors plus three times the reference's own Monte Carlo
+/// error (at most √(level(1 − level)/R) with R ≥ 1999), so that a correct calibration
+/// fails this test with probability well under 1e-3.
+fn bound(level: f64, m: usize) -> f64 {
+    level + 4.0 * (level * (1.0 - level) / m as f64).sqrt() + 3.0 * (level * (1.0 - level) / 1999.0).sqrt()
+}
+
+fn check(r: &Rates, label: &str) {
+    eprintln!("{}", r.line(label));
+    for code in
+        ["heavy-tails", "skewed-residuals", "outliers", "far-out", "unequal-variances", "unequal-variances-unequal-n"]
+    {
+        let rate = r.flag(code);
+        assert!(rate <= bound(FLAG_LEVEL, r.datasets), "{label}: {code} fires on {rate} of clean datasets");
+    }
+    // Structural flags never fire on continuous normal data with n ≥ 3.
+    for code in r.flags.keys() {
+        assert!(
+            quorum::diagnostics::flags::ALL.iter().any(|c| c.id() == code && c.calibrated()),
+            "{label}: structural flag {code} fired on clean data"
+        );
+    }
+    let any = r.rate(r.any_calibrated);
+    assert!(any <= bound(0.05, r.datasets), "{label}: some calibrated flag on {any} of clean datasets");
+    let mad = r.rate(r.mad_rule_removes);
+    assert!(mad <= bound(DROP_LEVEL, r.datasets), "{label}: the mad drop rule removes points from {mad}");
+}
+
+#[test]
+fn calibrated_flags_fire_on_about_1_percent_of_clean_datasets() {
+    // 2 × 2 designs with 5, 10, 20 and 50 per cell, 600 clean datasets each.
+    for n in [5usize, 10, 20, 50] {
+        let r = rates(2, 2, &[n; 4], 600);
+        check(&r, &format!("2×2, n = {n}"));
+        // The raw rules fire far more often (METHODS Overrides 8: 70–99% for the MAD rule).
+        assert!(r.rate(r.raw_any_mad) > 0.5, "n = {n}: raw MAD rule only {}", r.rate(r.raw_any_mad));
+        assert!(r.rate(r.raw_vr_above_1_5) > 0.3, "n = {n}: raw VR rule only {}", r.rate(r.raw_vr_above_1_5));
+    }
+}
+
+#[test]
+fn calibration_holds_in_an_unbalanced_design() {
+    let r = rates(2, 3, &[5, 8, 12, 20, 6, 30], 600);
+    check(&r, "2×3 unbalanced (5, 8, 12, 20, 6, 30)");
+}
+
+#[test]
+fn calibrated_flags_fire_on_data_that_break_the_assumptions() {
+    // Power, so that the calibration tests above cannot pass by flags that never fire.
+    // 2 × 2 designs, 200 datasets each; departures of our own choosing (invented).
+    let sizes = [20usize; 4];
+    let m = 200;
+    // Right-skewed errors (lognormal).
+    let r = rates_of(2, 2, &sizes, m, &|_, _, z| z.exp());
+    eprintln!("{}", r.line("lognormal errors"));
+    assert!(r.flag("skewed-residuals") > 0.9, "skew power {}", r.flag("skewed-residuals"));
+    assert!(r.flag("heavy-tails") > 0.5, "kurtosis power {}", r.flag("heavy-tails"));
+    // Contaminated normal: 10% of errors five times as spread out.
+    let r = rates_of(2, 2, &sizes, m, &|s, _, z| if s.uniform() < 0.1 { 5.0 * z } else { z });
+    eprintln!("{}", r.line("10% contaminated normal"));
+    assert!(r.flag("heavy-tails") > 0.7, "kurtosis power {}", r.flag("heavy-tails"));
+    assert!(r.flag("outliers") > 0.5, "extreme-point power {}", r.flag("outliers"));
+    // One gross error (+12 sd) in each cell.
+    let r = rates_of(2, 2, &sizes, m, &|s, _, z| if s.uniform() < 0.05 { z + 12.0 } else { z });
+    eprintln!("{}", r.line("5% gross errors"));
+    assert!(r.flag("far-out") > 0.5, "far-out power {}", r.flag("far-out"));
+    assert!(r.flag("outliers") > 0.8, "extreme-point power {}", r.flag("outliers"));
+    // Unequal variances: sd three times larger in the last cell.
+    let r = rates_of(2, 2, &sizes, m, &|_, c, z| if c == 3 { 3.0 * z } else { z });
+    eprintln!("{}", r.line("sd ×3 in one cell"));
+    assert!(r.flag("unequal-variances") > 0.9, "variance power {}", r.flag("unequal-variances"));
+    // ... and with the large variance in the small cell of an unbalanced design.
+    let r = rates_of(2, 2, &[10, 20, 20, 30], m, &|_, c, z| if c == 0 { 3.0 * z } else { z });
+    eprintln!("{}", r.line("sd ×3 in the smallest cell, n 10/20/20/30"));
+    assert!(r.flag("unequal-variances-unequal-n") > 0.7, "pairing power {}", r.flag("unequal-variances-unequal-n"));
+}
+
+#[test]
+#[ignore = "large simulation: cargo test --release --test checks calibration::large -- --ignored --nocapture"]
+fn large_calibration_table() {
+    for n in [5usize, 10, 20, 50] {
+        check(&rates(2, 2, &[n; 4], 10_000), &format!("2×2, n = {n}"));
+        check(&rates(2, 3, &[n; 6], 10_000), &format!("2×3, n = {n}"));
+    }
+    check(&rates(2, 3, &[5, 8, 12, 20, 6, 30], 10_000), "2×3 unbalanced (5, 8, 12, 20, 6, 30)");
+}
+
+#[test]
+fn diagnostics_do_not_depend_on_the_thread_count() {
+    let run = |threads: usize| {
+        let mut config =
+            crate::support::config_for("tests/data/methods12.csv", "y", &["A".to_string(), "B".to_string()]);
+        config.job = Job::Describe;
+        config.settings.threads = Some(threads);
+        serde_json::to_string(&quorum::analysis::run(&config).unwrap().diagnostics).unwrap()
+    };
+    let one = run(1);
+    assert_eq!(one, run(2));
+    assert_eq!(one, run(8));
+}

@@ -20,7 +20,7 @@
 //!   whichever side of x = (a + 1)/(a + b + 2) it converges quickly; the other tail is
 //!   the complement. It needs O(√max(a, b)) terms, a few hundred at a = b = 10⁶.
 
-use super::gamma::{ln_gamma, rlog1, stirling_correction, EPS, LN_SQRT_2PI, TINY};
+use super::gamma::{ln_gamma, rlog1, stirling_correction, EPS, LN_SQRT_2PI, MAX_TERMS, TINY};
 use super::solve::{solve_increasing, SolveScale};
 
 /// An argument of I_x(a, b), with y = 1 − x and both logarithms, each to full precision.
@@ -203,7 +203,7 @@ fn beta_cf(a: f64, b: f64, arg: &BetaArg, lambda: f64) -> f64 {
     }
     let mut c = f;
     let mut d = 0.0;
-    let cap = (2000.0 + 25.0 * a.max(b).sqrt()).min(5.0e6) as usize;
+    let cap = (2000.0 + 25.0 * a.max(b).sqrt()).min(MAX_TERMS) as usize;
     for m in 1..=cap {
         let m = m as f64;
         let a2m = a + 2.0 * m;

@@ -662,46 +662,60 @@ def tukey_scipy_mpmath_ref():
     }
 
 
-def mp_tukey_sf(q, k, df):
-    """P(Q > q) in the textbook order, at dps 30 with mpmath.quad:
-    1 - W(w) = k * int phi(z) (Phi(z)^(k-1) - (Phi(z) - Phi(z - w))^(k-1)) dz (the range
-    of k normals exceeds w), then sf = int_0^inf f_s(s) (1 - W(q s)) ds, f_s the density
-    of sqrt(chi2_df/df); df = inf uses 1 - W(q)."""
+def mp_tukey_sf_inf(q, k):
+    """P(Q > q) for df = inf at dps 30 with mpmath.quad, in the textbook form
+    1 - W(q) = k * int phi(z) (Phi(z)^(k-1) - (Phi(z) - Phi(z - q))^(k-1)) dz."""
     with mp.workdps(30):
-        K = mp.mpf(k)
+        K, Q = mp.mpf(k), _mpf(q)
 
-        def upper_range(w):
-            def f(z):
-                a = mp.ncdf(z)
-                return mp.npdf(z) * (a ** (K - 1) - (a - mp.ncdf(z - w)) ** (K - 1))
-            return K * mp.quad(f, [-mp.inf, -8, 0, w / 2, w, w + 8, mp.inf])
+        def f(z):
+            a = mp.ncdf(z)
+            return mp.npdf(z) * (a ** (K - 1) - (a - mp.ncdf(z - Q)) ** (K - 1))
+        return K * mp.quad(f, [-mp.inf, -8, 0, Q / 2, Q, Q + 8, mp.inf])
 
-        Q = _mpf(q)
-        if math.isinf(df):
-            return upper_range(Q)
-        nu = _mpf(df)
-        lognorm = mp.log(2) + (nu / 2) * mp.log(nu / 2) - mp.loggamma(nu / 2)
 
-        def g(s):
-            if s == 0:
-                return mp.mpf(0)
-            return mp.exp(lognorm + (nu - 1) * mp.log(s) - nu * s * s / 2) * upper_range(Q * s)
-        pts = sorted({mp.mpf(0), 1 / Q, 3 / Q, 10 / Q, mp.mpf("0.3"), mp.mpf(1), mp.mpf(2), mp.mpf(4)})
-        return mp.quad(g, pts + [mp.inf])
+def quad_tukey_sf(q, k, df):
+    """P(Q > q) for finite df, independent double-precision implementation in the
+    textbook order with scipy.integrate.quad (epsabs 0, epsrel 1e-13):
+    sf = int_0^inf f_s(s) (1 - W(q s)) ds, f_s the density of sqrt(chi2_df/df), and
+    1 - W(w) = k int phi(z) Phi(z)^(k-1) (-expm1((k-1) log1p(-Phi(z-w)/Phi(z)))) dz, which
+    keeps relative accuracy in the upper tail (nested mpmath.quad took > 8 minutes a value)."""
+    from scipy.integrate import quad
+
+    def upper_range(w):
+        def f(z):
+            ratio = math.exp(special.log_ndtr(z - w) - special.log_ndtr(z))  # Phi(z-w)/Phi(z)
+            factor = 1.0 if ratio >= 1.0 else -math.expm1((k - 1) * math.log1p(-ratio))
+            return k * math.exp(-0.5 * z * z) / math.sqrt(2 * math.pi) * special.ndtr(z) ** (k - 1) * factor
+        pts = [-math.inf, -8.0, 0.0, w / 2, w, w + 8.0, math.inf]
+        return sum(quad(f, a, b, epsabs=0, epsrel=1e-13, limit=200)[0] for a, b in zip(pts, pts[1:]) if b > a)
+
+    lognorm = math.log(2) + (df / 2) * math.log(df / 2) - math.lgamma(df / 2)
+
+    def g(s):
+        if s <= 0:
+            return 0.0
+        return math.exp(lognorm + (df - 1) * math.log(s) - df * s * s / 2) * upper_range(q * s)
+    pts = sorted({0.0, 1 / q, 3 / q, 10 / q, 0.3, 1.0, 2.0, 4.0})
+    pts.append(math.inf)
+    return sum(quad(g, a, b, epsabs=0, epsrel=1e-13, limit=200)[0] for a, b in zip(pts, pts[1:]))
 
 
 def tukey_tail_grid():
-    """Small upper tails, where scipy (1 - cdf) cannot serve: mpmath in the textbook order.
-    q is placed with the Bonferroni bound sf ~ k(k-1) * P(T_df > q/sqrt(2)) for targets
-    1e-4, 1e-8, 1e-12; for k = 2 the exact 2 P(T_df > q/sqrt(2)) (mpmath betainc; for
-    df = inf 2 P(Z > q/sqrt(2))) is recorded too and must match."""
+    """Small upper tails, where scipy (1 - cdf) cannot serve. q is placed with the
+    Bonferroni bound sf ~ k(k-1) P(T_df > q/sqrt 2) for targets 1e-4, 1e-8, 1e-12.
+    Reference: mpmath (df = inf) or the independent quad implementation (finite df);
+    for k = 2 also the exact 2 P(T_df > q/sqrt 2), which the generator checks both against."""
     rows = []
     cases = [(2, 2), (2, 10), (2, math.inf), (3, 10), (4, 2), (5, 30), (6, 5), (10, 120), (20, 10), (20, math.inf)]
     for k, df in cases:
         for target in (1e-4, 1e-8, 1e-12):
             tq = stats.norm.isf(target / (k * (k - 1))) if math.isinf(df) else stats.t.isf(target / (k * (k - 1)), df)
             q = float(math.sqrt(2) * tq)
-            sf_mp = mp_tukey_sf(q, k, df)
+            if math.isinf(df):
+                ref, source = float(mp_tukey_sf_inf(q, k)), 0
+            else:
+                ref, source = quad_tukey_sf(q, k, df), 1
             exact = float("nan")
             if k == 2:
                 with mp.workdps(30):
@@ -711,13 +725,14 @@ def tukey_tail_grid():
                     else:
                         D = _mpf(df)
                         exact = float(mp.betainc(D / 2, mp.mpf(1) / 2, 0, D / (D + x * x), regularized=True))
-                assert abs(float(sf_mp) / exact - 1) < 1e-12, (k, df, q, sf_mp, exact)
-            rows.append([k, df, q, float(sf_mp), exact])
+                assert abs(ref / exact - 1) < 1e-10, (k, df, q, ref, exact)
+            rows.append([k, df, q, ref, source, exact])
     return {
-        "call": {"sf_mp": "mp_tukey_sf(q, k, df): mpmath.quad at dps 30 in the textbook order (this file)",
+        "call": {"sf_ref": "source 0: mp_tukey_sf_inf(q, k) (mpmath.quad, dps 30, df = inf); source 1: "
+                           "quad_tukey_sf(q, k, df) (scipy.integrate.quad, textbook order, epsrel 1e-13) (this file)",
                  "sf_exact": "k = 2 only: 2 P(T_df > q/sqrt 2) = mpmath.betainc(df/2, 1/2, 0, df/(df + q^2/2), "
                              "regularized=True); df = inf: 2 mpmath.ncdf(-q/sqrt 2)"},
-        "columns": ["k", "df", "q", "sf_mp", "sf_exact"],
+        "columns": ["k", "df", "q", "sf_ref", "source", "sf_exact"],
         "rows": rows,
     }
 

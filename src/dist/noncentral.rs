@@ -133,6 +133,12 @@ fn ncf_pair(x: f64, df1: f64, df2: f64, lambda: f64) -> (f64, f64) {
         if z == f64::INFINITY {
             return (1.0, 0.0);
         }
+        if z * mu.max(1.0) < 1e-17 {
+            // Each j ≥ 1 term is below μz·(term j − 1): only j = 0 counts (and the
+            // downward recurrence, which divides by z, is not needed).
+            let cdf = (-mu).exp() * gamma_pq(0.5 * df1, z).0;
+            return (cdf, 1.0 - cdf);
+        }
         let a0 = 0.5 * df1 + j0;
         let (i0, c0) = gamma_pq(a0, z);
         let t0 = (ln_gamma_prefix(a0, z).exp() / a0).min(1.0);
@@ -149,11 +155,15 @@ fn ncf_pair(x: f64, df1: f64, df2: f64, lambda: f64) -> (f64, f64) {
     // Incomplete-beta argument z = d1x/(d1x + d2), from its odds d1x/d2.
     let r = df1 * x / df2;
     let arg = BetaArg::from_odds_or_ln(r, || df1.ln() + x.ln() - df2.ln());
-    if arg.x == 0.0 || arg.y == 0.0 {
-        // z or 1 − z below the double range: the corresponding tail is below 1e−150.
-        return if arg.x == 0.0 { (0.0, 1.0) } else { (1.0, 0.0) };
-    }
     let b = 0.5 * df2;
+    if arg.x * (0.5 * df1 + b) * mu.max(1.0) < 1e-17 {
+        // Tiny z (possibly below the double range; its logarithm is kept): each j ≥ 1 term
+        // is below μ·z·(a + b) times the one before, so only j = 0 counts, and the
+        // downward recurrence (which divides by z) is not needed.
+        let (i0, _) = beta_pair(0.5 * df1, b, &arg);
+        let cdf = (-mu).exp() * i0;
+        return (cdf, 1.0 - cdf);
+    }
     let a0 = 0.5 * df1 + j0;
     let (i0, c0) = beta_pair(a0, b, &arg);
     let t0 = (ln_beta_prefix(a0, b, &arg).exp() / a0).min(1.0);
@@ -283,6 +293,21 @@ mod tests {
             let (c, s) = ncf_pair(x, 4.0, 30.0, lam);
             assert!((c + s - 1.0).abs() < 1e-14, "x {x} lambda {lam}: {c} + {s}");
         }
+    }
+
+    #[test]
+    fn extreme_arguments_stay_consistent() {
+        // z = d1x/(d1x + d2) below the double range, with a small df1 so the cdf is not tiny.
+        let (c, s) = ncf_pair(1e-320, 0.02, 10.0, 4.0);
+        let central = crate::dist::f_cdf(1e-320, 0.02, 10.0);
+        assert!(
+            (c / ((-2.0f64).exp() * central) - 1.0).abs() < 1e-12,
+            "{c} {central}"
+        );
+        assert!((c + s - 1.0).abs() < 1e-15);
+        // 1 − z below the double range: the upper tail is summed from logarithms.
+        let (c, s) = ncf_pair(1e300, 3.0, 0.02, 4.0);
+        assert!(s > 0.0 && s < 1.0 && (c + s - 1.0).abs() < 1e-15, "{c} {s}");
     }
 
     #[test]

@@ -3,6 +3,7 @@
 //! Reference values come from outside the project (scipy, statsmodels, NIST StRD,
 //! published worked examples, open datasets); each module names its sources.
 
+mod dist;
 mod support;
 
 mod bad_inputs;

@@ -100,6 +100,12 @@ fn term_results(ctx: &Context<'_>, ss: &[f64], dfs: &[usize], measured: &[bool])
                     es.partial_omega_sq
                 ));
             }
+            let level = ctx.settings.ci_level;
+            let interval = steiger_interval(f, df1, df_e, fit.n_total as f64, level);
+            if f == 0.0 {
+                notes.push("F = 0: the effect-size interval is [0, 0] by construction".into());
+            }
+            let effects = effects_list(&es, interval, level);
             TermResult {
                 term: term.name.clone(),
                 statistic: finite(f),
@@ -108,8 +114,8 @@ fn term_results(ctx: &Context<'_>, ss: &[f64], dfs: &[usize], measured: &[bool])
                 p: finite(p),
                 decision: finite(p).map(|p| Decision::from_p(p, ctx.settings.alpha)),
                 mc: None,
-                effect: Some(Effect::point("partial_eta_squared", es.partial_eta_sq)),
-                effects: effects_list(&es),
+                effect: effects.first().cloned(),
+                effects,
                 not_applicable: None,
                 notes,
             }
@@ -117,10 +123,31 @@ fn term_results(ctx: &Context<'_>, ss: &[f64], dfs: &[usize], measured: &[bool])
         .collect()
 }
 
-fn effects_list(es: &EffectSizes) -> Vec<Effect> {
+/// Steiger's (2004, Psychological Methods 9:164–182) interval for partial η²: the
+/// noncentrality limits λ_L, λ_U of the observed F (METHODS §1.4, `dist::ncf_lambda_interval`)
+/// mapped by λ/(λ + N). Partial η² and partial ω² estimate the same population quantity,
+/// so the one interval is reported beside both (METHODS Overrides 4).
+pub fn steiger_interval(f: f64, df1: f64, df2: f64, n: f64, level: f64) -> Option<(f64, f64)> {
+    let (lo, hi) = dist::ncf_lambda_interval(f, df1, df2, level)?;
+    let map = |lambda: f64| lambda / (lambda + n);
+    let (lo, hi) = (map(lo), map(hi));
+    (lo.is_finite() && hi.is_finite()).then_some((lo, hi))
+}
+
+fn with_interval(name: &str, value: f64, interval: Option<(f64, f64)>, level: f64) -> Effect {
+    let mut e = Effect::point(name, value);
+    if let Some((lo, hi)) = interval {
+        e.ci_low = finite(lo);
+        e.ci_high = finite(hi);
+        e.ci_level = Some(level);
+    }
+    e
+}
+
+fn effects_list(es: &EffectSizes, interval: Option<(f64, f64)>, level: f64) -> Vec<Effect> {
     let mut v = vec![
-        Effect::point("partial_eta_squared", es.partial_eta_sq),
-        Effect::point("partial_omega_squared", es.partial_omega_sq),
+        with_interval("partial_eta_squared", es.partial_eta_sq, interval, level),
+        with_interval("partial_omega_squared", es.partial_omega_sq, interval, level),
         Effect::point("eta_squared", es.eta_sq),
         Effect::point("omega_squared", es.omega_sq),
     ];

@@ -150,3 +150,30 @@ fn type_iii_l_form_equals_the_drop_columns_refit() {
         }
     }
 }
+
+#[test]
+fn partial_eta_squared_interval_matches_the_scipy_noncentral_inversion() {
+    // Source: brentq roots of scipy.stats.ncf.cdf(F, df1, df2, λ) = 0.975 / 0.025 mapped
+    // by λ/(λ + N) (classical.json, `steiger_call`); METHODS §12.2 prints the same limits
+    // for the invented data (A [0.01318191, 0.37888635], B [0.32247121, 0.69934567],
+    // A×B [0, 0.20639855]). The λ roots are compared through η², whose error is bounded
+    // by the λ tolerance; 1e-8 relative is the accuracy the dist module guarantees for
+    // the inversion (its own tests check the cdf at the roots to 1e-9).
+    const STEIGER_REL: f64 = 1e-8;
+    let fix = fixture("classical");
+    for (name, entry) in datasets(&fix) {
+        let (csv, outcome, factors) = dataset(&entry);
+        let a = quorum::analysis::run(&config_for(&csv, &outcome, &factors)).unwrap();
+        for want in entry["effect_sizes_type3"].as_array().unwrap() {
+            let t = classical(&a).terms.iter().find(|t| t.term == want["term"].as_str().unwrap()).unwrap();
+            let ci = nums(&want["partial_eta_sq_ci95"]);
+            for id in ["partial_eta_squared", "partial_omega_squared"] {
+                let e = t.effects.iter().find(|e| e.name == id).unwrap();
+                assert_eq!(e.ci_level, Some(0.95));
+                let what = format!("{name} {} {id}", t.term);
+                assert_close(e.ci_low.unwrap(), ci[0], STEIGER_REL, 1e-12, &format!("{what} low"));
+                assert_close(e.ci_high.unwrap(), ci[1], STEIGER_REL, 1e-12, &format!("{what} high"));
+            }
+        }
+    }
+}

@@ -54,7 +54,27 @@ def analyse(df, outcome, factors):
         es.append({"term": r["term"], "eta_sq": ss / out["sst"], "partial_eta_sq": ss / (ss + fit.ssr),
                    "omega_sq": (ss - dfs * mse) / (out["sst"] + mse),
                    "partial_omega_sq": (ss - dfs * mse) / (ss + (len(d) - dfs) * mse)})
+    # Steiger (2004) interval for partial eta squared: roots of scipy.stats.ncf.cdf in λ
+    # (brentq), mapped by λ/(λ + N) (METHODS §1.4; Overrides 4: one 0.95 interval).
+    from scipy.optimize import brentq
+    n_obs = len(d)
+    for r, e in zip(out["type3"], es):
+        f_obs, d1, d2 = r["F"], r["df"], fit.df_resid
+
+        def root(target):
+            g = lambda lam: st.ncf.cdf(f_obs, d1, d2, lam) - target
+            if st.f.cdf(f_obs, d1, d2) < target:
+                return 0.0
+            hi = 1.0
+            while g(hi) > 0:
+                hi *= 2
+            return brentq(g, 0.0, hi, xtol=1e-12, rtol=1e-14)
+
+        lam_lo, lam_hi = root(0.975), root(0.025)
+        e["partial_eta_sq_ci95"] = [lam_lo / (lam_lo + n_obs), lam_hi / (lam_hi + n_obs)]
+        e["lambda_ci95"] = [lam_lo, lam_hi]
     out["effect_sizes_type3"] = es
+    out["steiger_call"] = "brentq on scipy.stats.ncf.cdf(F, df1, df2, lambda) = 0.975 / 0.025; eta2 = lambda/(lambda + N)"
     # Marginal means with 95% t intervals from the pooled error (df N − C).
     tq = st.t.ppf(0.975, fit.df_resid)
     cells = d.groupby([f"f{i}" for i in range(len(factors))])["yy"]

@@ -27,18 +27,7 @@ pub fn make_csv(n: usize) -> Vec<u8> {
 }
 
 fn spec() -> DataSpec {
-    DataSpec {
-        source: Source::Stdin,
-        outcome: "response".into(),
-        factors: vec!["dose".into(), "site".into()],
-        id: None,
-        missing: DataSpec::default_missing(),
-        delimiter: Delimiter::Auto,
-        decimal_comma: false,
-        levels: vec![],
-        measured: vec![],
-        sheet: None,
-    }
+    DataSpec::new(Source::Stdin, "response", &["dose", "site"])
 }
 
 /// The floor: read every record and parse the outcome field as f64.

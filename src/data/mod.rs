@@ -278,21 +278,10 @@ impl Columns {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::config::{Delimiter, Source};
+    use crate::config::Source;
 
     fn spec(factors: &[&str]) -> DataSpec {
-        DataSpec {
-            source: Source::Stdin,
-            outcome: "y".into(),
-            factors: factors.iter().map(|s| s.to_string()).collect(),
-            id: None,
-            missing: DataSpec::default_missing(),
-            delimiter: Delimiter::Auto,
-            decimal_comma: false,
-            levels: vec![],
-            measured: vec![],
-            sheet: None,
-        }
+        DataSpec::new(Source::Stdin, "y", factors)
     }
 
     fn run(text: &str, spec: &DataSpec) -> Result<Observations> {

@@ -61,18 +61,7 @@ fn every_nist_anova_set_reaches_lre_9() {
         ["AtmWtAg", "SiRstv", "SmLs01", "SmLs02", "SmLs03", "SmLs04", "SmLs05", "SmLs06", "SmLs07", "SmLs08", "SmLs09"];
     for name in names {
         let (cert, csv) = read(name);
-        let spec = DataSpec {
-            source: Source::Stdin,
-            outcome: "response".into(),
-            factors: vec!["treatment".into()],
-            id: None,
-            missing: DataSpec::default_missing(),
-            delimiter: Delimiter::Auto,
-            decimal_comma: false,
-            levels: vec![],
-            measured: vec![],
-            sheet: None,
-        };
+        let spec = DataSpec::new(Source::Stdin, "response", &["treatment"]);
         let obs = quorum::data::parse(csv.as_bytes(), &spec, name, &Location::file(name)).unwrap();
         let design = quorum::design::Design::build(&obs, &spec).unwrap();
         let fit = quorum::model::Fit::new(&design);

@@ -7,18 +7,7 @@ use quorum::config::*;
 use quorum::error::Location;
 
 fn spec(factors: &[&str]) -> DataSpec {
-    DataSpec {
-        source: Source::Stdin,
-        outcome: "y".into(),
-        factors: factors.iter().map(|s| s.to_string()).collect(),
-        id: None,
-        missing: DataSpec::default_missing(),
-        delimiter: Delimiter::Auto,
-        decimal_comma: false,
-        levels: vec![],
-        measured: vec![],
-        sheet: None,
-    }
+    DataSpec::new(Source::Stdin, "y", factors)
 }
 
 fn analyse(bytes: &[u8], spec: &DataSpec) -> Result<(), i32> {

@@ -78,18 +78,7 @@ pub fn config_for(csv: &str, outcome: &str, factors: &[String]) -> quorum::confi
     use quorum::config::*;
     Config {
         job: Job::Analyze,
-        data: DataSpec {
-            source: Source::File(repo_path(csv)),
-            outcome: outcome.to_string(),
-            factors: factors.to_vec(),
-            id: None,
-            missing: DataSpec::default_missing(),
-            delimiter: Delimiter::Auto,
-            decimal_comma: false,
-            levels: vec![],
-            measured: vec![],
-            sheet: None,
-        },
+        data: DataSpec { factors: factors.to_vec(), ..DataSpec::new(Source::File(repo_path(csv)), outcome, &[]) },
         settings: Settings { quiet: true, ..Settings::default() },
         output: OutputSpec { format: Format::Json, report_dir: None },
         command: "test".into(),

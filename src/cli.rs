@@ -4,7 +4,10 @@
 //! [`Cli::into_config`] which checks ranges and names and builds typed values.
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
-use quorum::config::{Config, DataSpec, Delimiter, Format, Job, OutputSpec, Settings, Source, SsType};
+use quorum::config::{
+    Config, DataSpec, Delimiter, Format, Job, OutputSpec, PermutationScheme, Settings, Source, SsType,
+    TailApproximation,
+};
 use quorum::error::{Error, Result};
 use std::path::PathBuf;
 
@@ -126,6 +129,35 @@ pub struct EngineArgs {
     /// Engines to run, comma-separated (default: all).
     #[arg(long, value_name = "IDS", value_delimiter = ',')]
     pub engines: Option<Vec<String>>,
+    /// How the permutation engine permutes: residuals of the model without the term
+    /// (freedman-lane), full-model residuals (ter-braak) or the raw outcome (manly).
+    #[arg(long, value_enum, default_value_t = SchemeArg::FreedmanLane)]
+    pub permutation_scheme: SchemeArg,
+    /// Add a generalized-Pareto tail approximation beside permutation p-values below
+    /// about 10/B (reported next to the plain p, never instead of it).
+    #[arg(long)]
+    pub tail_approximation: bool,
+}
+
+/// Permutation schemes (METHODS §3.1).
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum SchemeArg {
+    /// Freedman & Lane (1983): residuals of the model without the term.
+    FreedmanLane,
+    /// ter Braak (1992): residuals of the full model.
+    TerBraak,
+    /// Manly (2007): the raw outcome.
+    Manly,
+}
+
+impl From<SchemeArg> for PermutationScheme {
+    fn from(s: SchemeArg) -> PermutationScheme {
+        match s {
+            SchemeArg::FreedmanLane => PermutationScheme::FreedmanLane,
+            SchemeArg::TerBraak => PermutationScheme::TerBraak,
+            SchemeArg::Manly => PermutationScheme::Manly,
+        }
+    }
 }
 
 /// Where results go.
@@ -261,6 +293,12 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         threads: e.threads,
         engines,
         quiet: false,
+        permutation_scheme: e.permutation_scheme.into(),
+        tail_approximation: if e.tail_approximation {
+            TailApproximation::GeneralizedPareto
+        } else {
+            TailApproximation::Off
+        },
     })
 }
 

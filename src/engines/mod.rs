@@ -9,6 +9,8 @@
 //! [`Engine`], and add one line to [`registry`].
 
 pub mod classical;
+pub mod permutation;
+pub mod studentized_permutation;
 
 use crate::config::Settings;
 use crate::design::forms::SsForms;
@@ -45,7 +47,11 @@ pub trait Engine: Sync + Send {
 
 /// Every engine quorum has, in report order.
 pub fn registry() -> Vec<Box<dyn Engine>> {
-    vec![Box::new(classical::Classical)]
+    vec![
+        Box::new(classical::Classical),
+        Box::new(permutation::Permutation),
+        Box::new(studentized_permutation::StudentizedPermutation),
+    ]
 }
 
 /// Ids of every engine, in report order.

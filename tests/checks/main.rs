@@ -8,4 +8,5 @@ mod support;
 mod classical;
 mod cli;
 mod descriptives;
+mod permutation;
 mod robustness;

@@ -384,7 +384,8 @@ pub struct NullDistribution {
     pub statistic: String,
     /// The observed statistic.
     pub observed: Option<f64>,
-    /// Resampled (or enumerated) statistics behind the quantiles.
+    /// Resampled (or enumerated) statistics behind the quantiles (all of them, up to
+    /// about a million per term).
     pub resamples: u64,
     /// All distinct rearrangements were enumerated.
     pub exact: bool,

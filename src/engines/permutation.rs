@@ -20,7 +20,7 @@
 //! [`SsForms::dense`] with per-chunk buffers. Freedman–Lane needs a different residual
 //! vector per term, e₀ = e_F + Zδ_S with δ_S = Q_S s (the shift from the full to the
 //! reduced fit, constant within cells), so its record is (e_F,i, cell of i) and
-//! u_S = Z'Pe_F + K δ_S, where K[c][d] counts the observations of original cell d that
+//! u_S = Z'Pe_F + K δ_S, where `K[c][d]` counts the observations of original cell d that
 //! land in cell c; when C² is large against N, u_S is summed per term instead. Above
 //! the dense limit the forms fall back to [`SsForms::ss`] (allocating, but exact) and
 //! δ_S is solved by conjugate gradients on the Kronecker operators.
@@ -136,7 +136,7 @@ impl Engine for Permutation {
                 term: term.name.clone(),
                 statistic: "F".into(),
                 observed: finite(f_obs),
-                resamples: outcome.resamples,
+                resamples: outcome.statistics.len() as u64,
                 exact: outcome.exact,
                 quantiles: outcome.quantiles(),
                 degenerate: outcome.degenerate,

@@ -134,7 +134,7 @@ impl Engine for StudentizedPermutation {
                 term: term.name.clone(),
                 statistic: "W".into(),
                 observed: finite(w),
-                resamples: outcome.resamples,
+                resamples: outcome.statistics.len() as u64,
                 exact: outcome.exact,
                 quantiles: outcome.quantiles(),
                 degenerate: outcome.degenerate,

@@ -25,6 +25,10 @@ use super::progress::Progress;
 use super::{par_chunks, ChunkTask, Purpose};
 use crate::results::{finite, Decision, MonteCarlo, NULL_QUANTILE_POINTS};
 
+/// Most resampled statistics kept per term for the null distribution and the tail
+/// approximation (8 MB per term); counts and p-values always use every resample.
+pub const STORED_STATISTICS_MAX: usize = 1 << 20;
+
 /// Stream term code of every permutation: 0, shared by all terms and by both
 /// permutation engines (METHODS §10.2).
 pub const SHARED_TERM: u64 = 0;
@@ -128,7 +132,7 @@ fn enumerate_level<R: Copy>(
 /// `visit(b, arranged)` for every wanted resample b in `task.lo..task.hi`, where
 /// `arranged[i] = canonical[a[i]]` for the Fisher–Yates permutation a of that resample
 /// (METHODS §10.3: a starts as the identity; for k = N−1 down to 1, j = bounded(k + 1),
-/// swap a[k], a[j]). Resamples before `task.lo` are drawn but not arranged, so every
+/// swap `a[k]`, `a[j]`). Resamples before `task.lo` are drawn but not arranged, so every
 /// later one is the same whatever the range asked for. `work` must have the length of
 /// `canonical`; it is the chunk's buffer.
 pub fn permuted_chunk<R: Copy>(
@@ -192,7 +196,8 @@ pub struct TermOutcome {
     pub exact: bool,
     /// Resamples whose statistic was undefined (counted as exceedances).
     pub degenerate: u64,
-    /// The resampled statistics in resample order (NaN for degenerate ones).
+    /// The resampled statistics in resample order (NaN for degenerate ones), the first
+    /// [`STORED_STATISTICS_MAX`] of them.
     pub statistics: Vec<f64>,
     /// Resamples first planned, when the term was extended beyond them.
     pub extended_from: Option<u64>,
@@ -217,7 +222,9 @@ impl TermOutcome {
         } else if mc::exceeds(statistic, observed) {
             self.exceedances += 1;
         }
-        self.statistics.push(statistic);
+        if self.statistics.len() < STORED_STATISTICS_MAX {
+            self.statistics.push(statistic);
+        }
         self.resamples += 1;
     }
 

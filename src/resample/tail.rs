@@ -232,8 +232,9 @@ pub fn anderson_darling_p(sorted: &[f64], g: &Gpd, replicates: usize, stream: &m
 
 /// The tail approximation of a term's permutation p (see the module doc).
 ///
-/// `statistics` are the B resampled statistics (NaN for degenerate ones), `observed`
-/// the observed statistic, `exceedances` the count b behind the plain p; `stream_term`
+/// `statistics` are the B resampled statistics (NaN for degenerate ones; B is their
+/// number), `observed` the observed statistic, `exceedances` the count b behind the
+/// plain p; `stream_term`
 /// and `stream_aux` key the auxiliary stream of the goodness-of-fit bootstrap.
 pub fn approximate(
     statistics: &[f64],

@@ -13,6 +13,8 @@
   quorum's), F of every permuted data set by the same projections (no cell sums), for
   Freedman–Lane, ter Braak and Manly, and W (studentized, raw data permuted across all
   cells). p = (1 + b)/(1 + B), SE = sqrt(p̂(1 − p̂)/B).
+* Type-I error of the studentized test under unequal variances: an independent numpy
+  simulation (2000 null datasets per scenario, B = 999), to set beside quorum's.
 * Generalized Pareto: `scipy.stats.genpareto.fit(z, floc=0)` and
   `scipy.stats.goodness_of_fit(genpareto, z, known_params={'loc': 0}, statistic='ad')`
   on a fixed sample drawn with `genpareto.rvs`.
@@ -261,8 +263,42 @@ def gpd():
                     "statistic='ad', n_mc_samples=999, rng=default_rng(78))"}
 
 
+TYPE_ONE_SCENARIOS = {
+    # name: (cell sizes, cell sds) of a 2×3 design with equal means (null).
+    "moderate_unequal_variances": ([8, 10, 12, 14, 16, 18], [2.0, 1.75, 1.5, 1.25, 1.0, 1.0]),
+    "unequal_variances": ([7, 9, 11, 13, 15, 17], [4.0, 3.0, 2.0, 1.5, 1.0, 1.0]),
+    "unequal_variances_larger": ([14, 18, 22, 26, 30, 34], [4.0, 3.0, 2.0, 1.5, 1.0, 1.0]),
+}
+
+
+def type_one_studentized(datasets=2000, b=999):
+    """Independent simulation of the studentized permutation test's type-I error
+    (numpy generator and W code, not quorum's), rejection when (1 + b)/(1 + B) ≤ 0.05."""
+    ls = [hypothesis([2, 3], tf) for tf in ([0], [1], [0, 1])]
+    out = {"datasets": datasets, "B": b, "alpha": 0.05,
+           "call": "numpy default_rng(5): normal cells, rng.permuted permutations, W from cell means and variances"}
+    rng = np.random.default_rng(5)
+    for name, (sizes, sds) in TYPE_ONE_SCENARIOS.items():
+        sizes, sds = np.array(sizes), np.array(sds)
+        starts = np.concatenate([[0], np.cumsum(sizes)])
+        n = starts[-1]
+        base = np.tile(np.arange(n), (b, 1))
+        rejections = np.zeros(3)
+        for _ in range(datasets):
+            y = 10 + np.repeat(sds, sizes) * rng.normal(size=n)
+            yc = y - y.mean()
+            w_obs = [w[0] for w in wald_batch(yc[None, :], starts, ls)]
+            ws = wald_batch(yc[rng.permuted(base, axis=1)], starts, ls)
+            for t in range(3):
+                count = np.sum(np.isnan(ws[t]) | (ws[t] >= w_obs[t] * (1 - 1e-10)))
+                rejections[t] += (1 + count) / (1 + b) <= 0.05
+        out[name] = {"sizes": sizes.tolist(), "sds": sds.tolist(),
+                     "rates": dict(zip(["A", "B", "A:B"], (rejections / datasets).tolist()))}
+    return out
+
+
 def generate():
-    out = {"exact_2x2": exact_2x2(), "gpd": gpd()}
+    out = {"exact_2x2": exact_2x2(), "gpd": gpd(), "type_one_studentized": type_one_studentized()}
     for name, seed in (("methods12", 11), ("warpbreaks", 12)):
         df, outcome, factors, csv = ds.ALL[name]()
         d = canonical(df, outcome, factors)

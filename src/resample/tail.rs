@@ -341,6 +341,13 @@ pub fn note(tail: &TailApproximationResult) -> Option<String> {
 mod tests {
     use super::*;
 
+    /// ML estimates from 5000 draws: the shape's standard error is about 0.015 (ξ ≈ 0)
+    /// to 0.02, the scale's about 2% (asymptotic GPD information), so 4 SE.
+    const SHAPE_TOL: f64 = 0.06;
+    const SCALE_REL_TOL: f64 = 0.08;
+    /// Quantile and survival function are closed forms: rounding only.
+    const INVERSE_TOL: f64 = 1e-12;
+
     fn sample(g: &Gpd, n: usize, seed: u64) -> Vec<f64> {
         let mut s = Stream::new(seed, StreamKey { purpose: Purpose::Auxiliary, term: 99, chunk: 0, aux: 0 });
         let mut v: Vec<f64> = (0..n).map(|_| g.quantile(s.uniform())).collect();
@@ -361,8 +368,8 @@ mod tests {
                 let near = Gpd { shape: f.shape + ds, scale: f.scale * (1.0 + dc) };
                 assert!(ll >= near.log_likelihood(&z) - 1e-9, "{shape}: {f:?}");
             }
-            assert!((f.shape - shape).abs() < 0.06, "{shape}: {f:?}");
-            assert!((f.scale / scale - 1.0).abs() < 0.08, "{scale}: {f:?}");
+            assert!((f.shape - shape).abs() < SHAPE_TOL, "{shape}: {f:?}");
+            assert!((f.scale / scale - 1.0).abs() < SCALE_REL_TOL, "{scale}: {f:?}");
         }
     }
 
@@ -370,7 +377,7 @@ mod tests {
     fn quantile_inverts_the_survival_function() {
         for g in [Gpd { shape: 0.3, scale: 2.0 }, Gpd { shape: -0.4, scale: 1.0 }, Gpd { shape: 0.0, scale: 3.0 }] {
             for u in [0.01, 0.3, 0.9, 0.999] {
-                assert!((1.0 - g.sf(g.quantile(u)) - u).abs() < 1e-12);
+                assert!((1.0 - g.sf(g.quantile(u)) - u).abs() < INVERSE_TOL);
             }
         }
     }

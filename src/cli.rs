@@ -5,7 +5,8 @@
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use quorum::config::{
-    Config, DataSpec, Delimiter, Format, HcType, Job, OutputSpec, Settings, Source, SsType, WjReference,
+    Config, DataSpec, Delimiter, Format, HcType, Job, OutputSpec, PermutationScheme, Settings, Source, SsType,
+    TailApproximation, WjReference,
 };
 use quorum::error::{Error, Result};
 use std::path::PathBuf;
@@ -148,6 +149,14 @@ pub struct EngineArgs {
     /// Points the sensitivity variant removes: far (beyond 3 × IQR), mad (calibrated MAD–median rule), none.
     #[arg(long, value_enum, default_value_t = DropRuleArg::Far)]
     pub drop_rule: DropRuleArg,
+    /// How the permutation engine permutes: residuals of the model without the term
+    /// (freedman-lane), full-model residuals (ter-braak) or the raw outcome (manly).
+    #[arg(long, value_enum, default_value_t = SchemeArg::FreedmanLane)]
+    pub permutation_scheme: SchemeArg,
+    /// Add a generalized-Pareto tail approximation beside permutation p-values below
+    /// about 10/B (reported next to the plain p, never instead of it).
+    #[arg(long)]
+    pub tail_approximation: bool,
 }
 
 /// Reference distributions of the trimmed-means test.
@@ -188,6 +197,27 @@ impl From<DropRuleArg> for quorum::config::DropRule {
             DropRuleArg::Far => quorum::config::DropRule::Far,
             DropRuleArg::Mad => quorum::config::DropRule::Mad,
             DropRuleArg::None => quorum::config::DropRule::None,
+        }
+    }
+}
+
+/// Permutation schemes (METHODS §3.1).
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum SchemeArg {
+    /// Freedman & Lane (1983): residuals of the model without the term.
+    FreedmanLane,
+    /// ter Braak (1992): residuals of the full model.
+    TerBraak,
+    /// Manly (2007): the raw outcome.
+    Manly,
+}
+
+impl From<SchemeArg> for PermutationScheme {
+    fn from(s: SchemeArg) -> PermutationScheme {
+        match s {
+            SchemeArg::FreedmanLane => PermutationScheme::FreedmanLane,
+            SchemeArg::TerBraak => PermutationScheme::TerBraak,
+            SchemeArg::Manly => PermutationScheme::Manly,
         }
     }
 }
@@ -335,6 +365,12 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         wj_reference: e.wj_reference.into(),
         hc: HcType::ALL[usize::from(e.hc.min(4))],
         drop_rule: e.drop_rule.into(),
+        permutation_scheme: e.permutation_scheme.into(),
+        tail_approximation: if e.tail_approximation {
+            TailApproximation::GeneralizedPareto
+        } else {
+            TailApproximation::Off
+        },
     })
 }
 

@@ -209,6 +209,46 @@ pub struct Settings {
     pub hc: HcType,
     /// Which points the sensitivity variant removes (default far-out points).
     pub drop_rule: DropRule,
+    /// Permutation scheme of the `permutation` engine (default Freedman–Lane).
+    pub permutation_scheme: PermutationScheme,
+    /// Tail approximation for tiny permutation p-values (default off).
+    pub tail_approximation: TailApproximation,
+}
+
+/// How the `permutation` engine builds its permuted data (METHODS §3.1).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum PermutationScheme {
+    /// Permute the residuals of the model without the term and add them back to its
+    /// fitted values (Freedman & Lane 1983).
+    #[default]
+    FreedmanLane,
+    /// Permute the residuals of the full model (ter Braak 1992).
+    TerBraak,
+    /// Permute the raw outcome across all cells (Manly 2007).
+    Manly,
+}
+
+impl PermutationScheme {
+    /// The id used on the command line and in the results (`mc.scheme`).
+    pub fn id(self) -> &'static str {
+        match self {
+            PermutationScheme::FreedmanLane => "freedman-lane",
+            PermutationScheme::TerBraak => "ter-braak",
+            PermutationScheme::Manly => "manly",
+        }
+    }
+}
+
+/// Whether to add a generalized-Pareto tail approximation beside tiny permutation
+/// p-values (METHODS §3.5).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum TailApproximation {
+    /// Plain permutation p only.
+    #[default]
+    Off,
+    /// Fit a generalized Pareto distribution to the largest resampled statistics when
+    /// fewer than 10 exceed the observed one (Knijnenburg et al. 2009).
+    GeneralizedPareto,
 }
 
 /// The default seed of every random stream (METHODS §10.2).
@@ -231,6 +271,8 @@ impl Default for Settings {
             wj_reference: WjReference::F,
             hc: HcType::Hc3,
             drop_rule: DropRule::Far,
+            permutation_scheme: PermutationScheme::FreedmanLane,
+            tail_approximation: TailApproximation::Off,
         }
     }
 }

@@ -338,6 +338,11 @@ pub struct MonteCarlo {
     pub exact: bool,
     /// Resampling scheme, e.g. `freedman-lane`.
     pub scheme: String,
+    /// Whether the scheme gives an exact test of this term's hypothesis (METHODS §3.2),
+    /// as opposed to an asymptotically exact approximation; absent where the engine
+    /// does not say.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub scheme_exact: Option<bool>,
 }
 
 /// An effect size with its interval.
@@ -463,6 +468,62 @@ pub enum Details {
     Art(ArtDetails),
     /// The `rank-ats` engine's ranks, relative effects and degrees of freedom.
     RankAts(RankAtsDetails),
+    /// The permutation engines' null distributions, thinned for plots, with the tail
+    /// approximation where one was asked for.
+    Permutation {
+        /// One entry per tested term, canonical order.
+        terms: Vec<NullDistribution>,
+    },
+}
+
+/// A term's permutation distribution, thinned to at most [`NULL_QUANTILE_POINTS`]
+/// sorted quantile points.
+#[derive(Debug, Clone, Serialize)]
+pub struct NullDistribution {
+    /// Term id.
+    pub term: String,
+    /// What the values are: `F` or `W` (Wald-type).
+    pub statistic: String,
+    /// The observed statistic.
+    pub observed: Option<f64>,
+    /// Resampled (or enumerated) statistics behind the quantiles (all of them, up to
+    /// about a million per term).
+    pub resamples: u64,
+    /// All distinct rearrangements were enumerated.
+    pub exact: bool,
+    /// Type-7 quantiles of the resampled statistics at probabilities i/(K − 1),
+    /// i = 0..K−1 (K = min(resamples, 1001)); null for a resample whose statistic is
+    /// infinite (zero permuted error).
+    pub quantiles: Vec<Option<f64>>,
+    /// Resamples whose statistic was undefined (a permuted cell without variance);
+    /// they count as exceedances.
+    pub degenerate: u64,
+    /// Asymptotic p-value of the same statistic, where the engine has one (χ² for W).
+    pub asymptotic_p: Option<f64>,
+    /// Generalized-Pareto tail approximation, when asked for and applicable.
+    pub tail: Option<TailApproximationResult>,
+}
+
+/// Most quantile points kept per null distribution.
+pub const NULL_QUANTILE_POINTS: usize = 1001;
+
+/// The generalized-Pareto tail approximation of a tiny permutation p (METHODS §3.5).
+#[derive(Debug, Clone, Serialize)]
+pub struct TailApproximationResult {
+    /// Approximate p, reported beside the plain permutation p (null when the fit failed).
+    pub p: Option<f64>,
+    /// `fitted`, or why there is no approximation (`too-few-resamples`, `fit-rejected`, …).
+    pub status: String,
+    /// Exceedances over the threshold used in the fit.
+    pub exceedances_used: u64,
+    /// Threshold t between the two order statistics.
+    pub threshold: Option<f64>,
+    /// Shape ξ of the fitted distribution.
+    pub shape: Option<f64>,
+    /// Scale σ of the fitted distribution.
+    pub scale: Option<f64>,
+    /// Anderson–Darling goodness-of-fit p (parametric bootstrap) of the accepted fit.
+    pub fit_p: Option<f64>,
 }
 
 /// Trimmed summaries of one cell (outcome units).

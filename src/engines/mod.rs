@@ -11,7 +11,9 @@
 pub mod art;
 pub mod classical;
 pub mod hc;
+pub mod permutation;
 pub mod rank_ats;
+pub mod studentized_permutation;
 pub mod trimmed;
 
 use crate::config::Settings;
@@ -53,6 +55,8 @@ pub fn registry() -> Vec<Box<dyn Engine>> {
         Box::new(classical::Classical),
         Box::new(hc::Hc),
         Box::new(trimmed::Trimmed),
+        Box::new(permutation::Permutation),
+        Box::new(studentized_permutation::StudentizedPermutation),
         Box::new(art::Art),
         Box::new(rank_ats::RankAts),
     ]

@@ -80,6 +80,7 @@ impl McCount {
             ci_high: hi,
             exact: false,
             scheme: scheme.to_string(),
+            scheme_exact: None,
         }
     }
 }

@@ -7,7 +7,10 @@
 //! statistic: engines pass closures.
 
 pub mod mc;
+pub mod permute;
+pub mod progress;
 pub mod stream;
+pub mod tail;
 
 use rayon::prelude::*;
 pub use stream::{Purpose, Stream, StreamKey, CHUNK};

@@ -14,6 +14,7 @@ mod descriptives;
 mod diagnostics;
 mod heteroscedastic;
 mod nist;
+mod permutation;
 mod rank;
 mod robustness;
 mod sensitivity;

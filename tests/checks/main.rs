@@ -13,6 +13,7 @@ mod cli;
 mod descriptives;
 mod diagnostics;
 mod heteroscedastic;
+mod invariance;
 mod nist;
 mod permutation;
 mod rank;

@@ -207,6 +207,8 @@ pub struct Settings {
     pub wj_reference: WjReference,
     /// HC covariance type of the `hc` engine (default HC3).
     pub hc: HcType,
+    /// `analyze --calibrate`: simulated datasets of the calibration on the data (None: off).
+    pub calibration: Option<u64>,
 }
 
 /// The default seed of every random stream (METHODS §10.2).
@@ -228,6 +230,7 @@ impl Default for Settings {
             quiet: false,
             wj_reference: WjReference::F,
             hc: HcType::Hc3,
+            calibration: None,
         }
     }
 }

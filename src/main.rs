@@ -4,6 +4,7 @@
 //! impossible on these data; 4 failed internal consistency check (a bug).
 
 mod cli;
+mod plan_cli;
 
 use clap::Parser;
 use quorum::config::Format;
@@ -31,6 +32,11 @@ fn main() -> ExitCode {
 }
 
 fn run(cli: cli::Cli) -> Result<(), Error> {
+    let cli = match cli.command {
+        cli::Command::Plan(args) => return plan_cli::plan(args, command_line()),
+        cli::Command::Merge(args) => return plan_cli::merge(args, command_line()),
+        command => cli::Cli { command },
+    };
     let config = cli.into_config(command_line())?;
     let analysis = quorum::analysis::run(&config)?;
     let input = match &config.data.source {

@@ -3,6 +3,7 @@
 
 pub mod folder;
 pub mod json;
+pub mod style;
 pub mod table;
 pub mod text;
 

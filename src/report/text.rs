@@ -21,6 +21,9 @@ impl Render for Text {
             engine(e, out)?;
         }
         verdicts(a, out)?;
+        if let Some(c) = &a.calibration {
+            crate::plan::text::calibration_section(c, out)?;
+        }
         footer(a, out)
     }
 }

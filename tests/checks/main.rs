@@ -10,6 +10,7 @@ mod cli;
 mod descriptives;
 mod heteroscedastic;
 mod nist;
+mod plan;
 mod rank;
 mod robustness;
 mod spreadsheet;

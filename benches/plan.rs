@@ -34,7 +34,7 @@ fn config(sims: u64) -> PlanConfig {
 
 fn bench(c: &mut Criterion) {
     let mut g = c.benchmark_group("plan");
-    g.sample_size(10).measurement_time(Duration::from_secs(1)).warm_up_time(Duration::from_millis(1));
+    g.sample_size(10).measurement_time(Duration::from_secs(3)).warm_up_time(Duration::from_millis(1));
     let cfg = config(1000);
     g.bench_function("3x2_n20_1000_sims_all_engines", |b| b.iter(|| black_box(plan::run(&cfg).unwrap().rates.len())));
     g.finish();

@@ -582,14 +582,16 @@ pub fn calibrate(design: &Design, settings: &Settings, sims: u64) -> Result<Cali
     let report =
         result::finish(spec, Coverage { requested: sims, completed: sims, ranges: vec![[0, sims]] }, rows, repro);
     let (lo, hi) = result::bradley_band(s.alpha);
+    // Registry order of engines, whatever condition they ran under.
+    let mut rates: Vec<&RateRow> = report.rates.iter().collect();
+    rates.sort_by_key(|r| report.spec.engines.iter().position(|e| *e == r.engine));
     Ok(Calibration {
         sims,
         seed: s.seed,
         resamples: s.permutations.max(s.resamples),
         alpha: s.alpha,
         band: [lo, hi],
-        rows: report
-            .rates
+        rows: rates
             .iter()
             .map(|r| CalibrationRow {
                 engine: r.engine.clone(),

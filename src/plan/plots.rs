@@ -142,7 +142,7 @@ fn draw_type_i<DB: DrawingBackend>(
     chart
         .configure_mesh()
         .disable_x_mesh()
-        .light_line_style(colour(style::GRID))
+        .light_line_style(TRANSPARENT)
         .bold_line_style(colour(style::GRID))
         .x_labels(engines.len().max(1))
         .x_label_formatter(&|x| {
@@ -233,12 +233,13 @@ fn draw_power<DB: DrawingBackend>(
         .caption(format!("Power for {term}{effect}"), text_style(style::TITLE_SIZE))
         .x_label_area_size(style::X_LABEL_AREA)
         .y_label_area_size(style::Y_LABEL_AREA)
-        .right_y_label_area_size(150)
+        .margin_right(150)
         .build_cartesian_2d((x_min - pad)..(x_max + pad), 0f64..1.02)?;
     chart
         .configure_mesh()
-        .light_line_style(colour(style::GRID))
+        .light_line_style(TRANSPARENT)
         .bold_line_style(colour(style::GRID))
+        .x_label_formatter(&|x| format!("{}", x.round()))
         .x_desc("n per cell (mean over cells)")
         .y_desc("power")
         .label_style(text_style(style::TICK_SIZE))
@@ -267,7 +268,7 @@ fn draw_power<DB: DrawingBackend>(
         }
         // Legend in the right margin.
         let (w, _) = root.dim_in_pixel();
-        let lx = w as i32 - 140;
+        let lx = w as i32 - 150;
         let ly = style::MARGIN as i32 + style::TITLE_SIZE as i32 + 24 + 20 * k as i32;
         root.draw(&PathElement::new(vec![(lx, ly + 6), (lx + 22, ly + 6)], c.stroke_width(style::LINE_WIDTH)))?;
         marker(root, (lx + 11, ly + 6), style::MARKERS[slot], c, false)?;

@@ -66,10 +66,21 @@ fn rate<'a>(
 
 #[test]
 fn classical_power_matches_the_noncentral_f() {
+    power_against_noncentral_f(3000);
+}
+
+/// The same with 40 000 simulations per case, printing each comparison:
+/// `cargo test --test checks plan::classical_power_large -- --ignored --nocapture`.
+#[test]
+#[ignore]
+fn classical_power_large() {
+    power_against_noncentral_f(40_000);
+}
+
+fn power_against_noncentral_f(sims: u64) {
     // Source: scipy `ncf.sf(f.isf(α, df1, df2), df1, df2, λ)` with λ from an independent
     // numpy computation (Helmert contrasts), tests/reference/gen/plan.py.
     let fx = fixture("plan");
-    let sims = 3000;
     for case in fx["power"].as_array().unwrap() {
         let label = case["label"].as_str().unwrap();
         let shape: Vec<usize> =
@@ -93,6 +104,7 @@ fn classical_power_matches_the_noncentral_f() {
             let row = rate(&r, "effects", 0, "classical", term);
             let got = row.rate.unwrap();
             let se = (want * (1.0 - want) / sims as f64).sqrt();
+            println!("{label}, {term}: simulated {got:.4}, noncentral F {want:.4}, SE {se:.4}");
             assert!(
                 (got - want).abs() <= MC_SE_MULTIPLE * se,
                 "{label}, {term}: simulated {got}, noncentral F {want} (SE {se})"

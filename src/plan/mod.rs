@@ -10,9 +10,9 @@
 //!   within cells about the estimand each engine tests, so each engine is judged under
 //!   its own null with the data's shapes and spreads.
 //!
-//! Each simulated dataset becomes a [`Design`](crate::design::Design) and a
+//! Each simulated dataset becomes a [`Design`] and a
 //! [`Fit`](crate::model::Fit) with Type III forms, and every engine of the registry that
-//! was selected runs on it through the [`Engine`](crate::engines::Engine) trait, so
+//! was selected runs on it through the [`Engine`] trait, so
 //! engines added to the registry appear in plans without changes here. Only integer
 //! counts leave a simulation ([`result`]), which is what makes `--shard K/N` and
 //! `quorum merge` give exactly the numbers of one run. The text renderer is [`text`],

@@ -51,6 +51,10 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         marginal_means: cells::marginal_means(design, &fit, settings.ci_level),
     };
     let diagnosis = diagnostics::diagnose(design, &fit, settings.seed);
+    let calibration = match (config.job, settings.calibration) {
+        (Job::Analyze, Some(sims)) => Some(crate::plan::calibrate(design, settings, sims)?),
+        _ => None,
+    };
     let (engine_results, concordance) = match config.job {
         Job::Describe => (Vec::new(), Vec::new()),
         Job::Analyze => {
@@ -85,6 +89,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
             threads: rayon::current_num_threads(),
             command: config.command.clone(),
         },
+        calibration,
     })
 }
 

@@ -36,6 +36,10 @@ pub enum Command {
     },
     /// Print the manual page (roff) on standard output.
     Manpage,
+    /// Simulated power and type-I error of every engine, for a design or for data like yours.
+    Plan(crate::plan_cli::PlanArgs),
+    /// Combine plan shards (`plan --shard K/N`) into one result.
+    Merge(crate::plan_cli::MergeArgs),
 }
 
 /// Arguments of `analyze` and `describe`.
@@ -52,6 +56,8 @@ pub struct RunArgs {
     pub engine: EngineArgs,
     #[command(flatten)]
     pub output: OutputArgs,
+    #[command(flatten)]
+    pub calibrate: crate::plan_cli::CalibrateArgs,
 }
 
 /// Arguments of `demo`.
@@ -274,6 +280,9 @@ impl Cli {
                 settings.quiet = d.quiet;
                 Ok(quorum::demo::config(settings, d.format.into(), Some(d.report)))
             }
+            Command::Plan(_) | Command::Merge(_) => {
+                Err(Error::internal("plan and merge are not analysis runs (main dispatches them first)"))
+            }
         }
     }
 }
@@ -295,6 +304,7 @@ fn run_config(a: RunArgs, job: Job, command: String) -> Result<Config> {
     };
     let mut settings = settings(&a.engine)?;
     settings.quiet = a.output.quiet;
+    settings.calibration = a.calibrate.sims(job == Job::Analyze)?;
     Ok(Config {
         job,
         data,
@@ -304,7 +314,7 @@ fn run_config(a: RunArgs, job: Job, command: String) -> Result<Config> {
     })
 }
 
-fn settings(e: &EngineArgs) -> Result<Settings> {
+pub(crate) fn settings(e: &EngineArgs) -> Result<Settings> {
     let in_open_unit = |x: f64| x > 0.0 && x < 1.0;
     if !in_open_unit(e.alpha) {
         return Err(Error::usage(format!("--alpha {} is not between 0 and 1", e.alpha), "the usual value is 0.05"));
@@ -371,6 +381,7 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         } else {
             TailApproximation::Off
         },
+        calibration: None,
     })
 }
 
@@ -391,7 +402,7 @@ fn parse_levels(arg: &str) -> Result<(String, Vec<String>)> {
     Ok((factor.trim().to_string(), levels))
 }
 
-fn parse_delimiter(arg: &str) -> Result<Delimiter> {
+pub(crate) fn parse_delimiter(arg: &str) -> Result<Delimiter> {
     Ok(match arg {
         "auto" => Delimiter::Auto,
         "comma" | "," => Delimiter::Byte(b','),

@@ -213,6 +213,8 @@ pub struct Settings {
     pub permutation_scheme: PermutationScheme,
     /// Tail approximation for tiny permutation p-values (default off).
     pub tail_approximation: TailApproximation,
+    /// `analyze --calibrate`: simulated datasets of the calibration on the data (None: off).
+    pub calibration: Option<u64>,
 }
 
 /// How the `permutation` engine builds its permuted data (METHODS §3.1).
@@ -273,6 +275,7 @@ impl Default for Settings {
             drop_rule: DropRule::Far,
             permutation_scheme: PermutationScheme::FreedmanLane,
             tail_approximation: TailApproximation::Off,
+            calibration: None,
         }
     }
 }

@@ -22,6 +22,7 @@
 //! * [`sensitivity`] reruns the engines without the points a drop rule flags (descriptive).
 //! * [`concordance`] compares the engines' decisions term by term.
 //! * [`robust`] holds trimmed-mean building blocks (Welch–James, Yuen, robust d).
+//! * [`plan`] simulates power and type-I error of every engine (designed scenarios, `--like` data).
 //! * [`report`] renders the one [`results::Analysis`] value; it never computes statistics.
 #![deny(missing_docs)]
 
@@ -36,6 +37,7 @@ pub mod dist;
 pub mod engines;
 pub mod error;
 pub mod model;
+pub mod plan;
 pub mod rank;
 pub mod report;
 pub mod resample;

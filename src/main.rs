@@ -4,6 +4,7 @@
 //! impossible on these data; 4 failed internal consistency check (a bug).
 
 mod cli;
+mod plan_cli;
 
 use clap::Parser;
 use quorum::config::Format;
@@ -36,6 +37,11 @@ fn run(cli: cli::Cli) -> Result<(), Error> {
         cli::Command::Manpage => return shell_integration(None),
         _ => {}
     }
+    let cli = match cli.command {
+        cli::Command::Plan(args) => return plan_cli::plan(args, command_line()),
+        cli::Command::Merge(args) => return plan_cli::merge(args, command_line()),
+        command => cli::Cli { command },
+    };
     let config = cli.into_config(command_line())?;
     let analysis = quorum::analysis::run(&config)?;
     let input = match &config.data.source {

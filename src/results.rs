@@ -37,6 +37,10 @@ pub struct Analysis {
     pub followup: Vec<Followup>,
     /// Version, seed, threads and command.
     pub reproducibility: Reproducibility,
+    /// `analyze --calibrate`: each engine's rejection rate under its own null on data
+    /// shaped like these (absent without the flag).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<crate::plan::Calibration>,
 }
 
 /// What was read from the input.

@@ -5,6 +5,7 @@ pub mod csv;
 pub mod diagnostics_text;
 pub mod folder;
 pub mod json;
+pub mod style;
 pub mod table;
 pub mod text;
 

@@ -22,6 +22,9 @@ impl Render for Text {
         }
         verdicts(a, out)?;
         super::diagnostics_text::sensitivity(a, out)?;
+        if let Some(c) = &a.calibration {
+            crate::plan::text::calibration_section(c, out)?;
+        }
         footer(a, out)
     }
 }

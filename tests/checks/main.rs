@@ -16,6 +16,7 @@ mod heteroscedastic;
 mod invariance;
 mod nist;
 mod permutation;
+mod plan;
 mod rank;
 mod robustness;
 mod sensitivity;

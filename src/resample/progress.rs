@@ -49,13 +49,18 @@ pub struct Progress {
 }
 
 impl Progress {
-    /// A bar for `total` units of work labelled `label` (e.g. the engine id).
+    /// A bar for `total` resamples labelled `label` (e.g. the engine id).
     pub fn new(label: &str, total: u64, visibility: Visibility) -> Progress {
+        Self::counting(label, "resamples", total, visibility)
+    }
+
+    /// A bar for `total` units named `unit` (e.g. "simulations") labelled `label`.
+    pub fn counting(label: &str, unit: &str, total: u64, visibility: Visibility) -> Progress {
         let enabled = visibility == Visibility::Auto && std::io::stderr().is_terminal();
         let bar = enabled.then(|| {
             let bar = ProgressBar::with_draw_target(Some(total), ProgressDrawTarget::hidden());
-            if let Ok(style) = ProgressStyle::with_template("{prefix:>24} [{bar:30}] {pos}/{len} resamples, {eta} left")
-            {
+            let template = format!("{{prefix:>24}} [{{bar:30}}] {{pos}}/{{len}} {unit}, {{eta}} left");
+            if let Ok(style) = ProgressStyle::with_template(&template) {
                 bar.set_style(style.progress_chars("=> "));
             }
             bar.set_prefix(label.to_string());

@@ -209,6 +209,8 @@ pub struct Settings {
     pub hc: HcType,
     /// Which points the sensitivity variant removes (default far-out points).
     pub drop_rule: DropRule,
+    /// Multiplicity adjustment within each follow-up family (default Holm).
+    pub adjust: crate::followup::Adjust,
 }
 
 /// The default seed of every random stream (METHODS §10.2).
@@ -231,6 +233,7 @@ impl Default for Settings {
             wj_reference: WjReference::F,
             hc: HcType::Hc3,
             drop_rule: DropRule::Far,
+            adjust: crate::followup::Adjust::Holm,
         }
     }
 }
@@ -262,6 +265,8 @@ pub enum Job {
     Analyze,
     /// Cell table and diagnostics only.
     Describe,
+    /// Follow-ups of chosen effects (`quorum probe`; run by `followup::probe`).
+    Probe,
 }
 
 /// One complete, validated run.

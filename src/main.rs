@@ -36,6 +36,9 @@ fn run(cli: cli::Cli) -> Result<(), Error> {
         cli::Command::Manpage => return shell_integration(None),
         _ => {}
     }
+    if let cli::Command::Probe(args) = cli.command {
+        return probe(args);
+    }
     let config = cli.into_config(command_line())?;
     let analysis = quorum::analysis::run(&config)?;
     let input = match &config.data.source {
@@ -57,6 +60,20 @@ fn run(cli: cli::Cli) -> Result<(), Error> {
         eprintln!("report folder: {}", display_dir(dir));
     }
     Ok(())
+}
+
+/// `quorum probe`: its own report, text or JSON, on stdout.
+fn probe(args: cli::ProbeArgs) -> Result<(), Error> {
+    let (config, spec) = args.into_config(command_line())?;
+    let report = quorum::followup::probe(&config, &spec)?;
+    let mut stdout = io::stdout().lock();
+    let printed = quorum::report::followup_text::render_probe(&report, config.output.format, &mut stdout)
+        .and_then(|_| stdout.flush());
+    match printed {
+        Err(e) if e.kind() == io::ErrorKind::BrokenPipe => Ok(()),
+        Err(e) => Err(Error::Io { path: "<stdout>".into(), action: "writing", source: e }),
+        Ok(()) => Ok(()),
+    }
 }
 
 /// Completion script for `shell`, or the man page when `shell` is None, on stdout.

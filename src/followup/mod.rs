@@ -343,16 +343,16 @@ pub fn probe_design(config: &Config, design: &Design, input: InputSummary, spec:
     let probe = Probe::new(design, &fit, settings)?;
     let effect = resolve(design, &spec.effect, "--effect")?;
     let at = resolve(design, &spec.at, "--at")?;
-    if spec.effect.is_empty() && spec.contrasts.is_empty() && spec.trends.is_empty() {
-        return Err(Error::usage(
-            "nothing to probe",
-            "name an effect with --effect (and --at for simple effects), or give --contrast or --trend",
-        ));
-    }
     if spec.effect.is_empty() && !spec.at.is_empty() {
         return Err(Error::usage(
             "--at needs --effect",
             "name the effect to test within each level of the --at factors",
+        ));
+    }
+    if spec.effect.is_empty() && spec.contrasts.is_empty() && spec.trends.is_empty() {
+        return Err(Error::usage(
+            "nothing to probe",
+            "name an effect with --effect (and --at for simple effects), or give --contrast or --trend",
         ));
     }
     if spec.both_ways && at.is_empty() {

@@ -164,7 +164,9 @@ pub fn comparisons(probe: &Probe<'_>, effect: &[usize], at: &[usize]) -> Result<
                     let mut gh = blank("games-howell", "means", &slice, &first, &second, m);
                     gh.statistic_name = "q".into();
                     let var = |c: usize| fit.ss_within[c] / (fit.n[c] as f64 - 1.0) / fit.n[c] as f64;
-                    let bad = [ci, cj].into_iter().find(|&c| fit.n[c] < 2 || fit.ss_within[c].is_nan() || fit.ss_within[c] <= 0.0);
+                    let bad = [ci, cj]
+                        .into_iter()
+                        .find(|&c| fit.n[c] < 2 || fit.ss_within[c].is_nan() || fit.ss_within[c] <= 0.0);
                     if let Some(c) = bad {
                         gh.not_applicable = Some(format!(
                             "cell {}: Games–Howell needs n ≥ 2 and within-cell variation",

@@ -179,7 +179,11 @@ pub fn simple_effects(probe: &Probe<'_>, effect: &[usize], at: &[usize]) -> Resu
             ),
             slice.clone(),
         );
-        let bad: Vec<usize> = in_slice.iter().copied().filter(|&c| fit.n[c] < 2 || probe.hc_v[c].is_nan() || probe.hc_v[c] <= 0.0).collect();
+        let bad: Vec<usize> = in_slice
+            .iter()
+            .copied()
+            .filter(|&c| fit.n[c] < 2 || probe.hc_v[c].is_nan() || probe.hc_v[c] <= 0.0)
+            .collect();
         if let Some(&c) = bad.first() {
             hcr.not_applicable = Some(format!(
                 "cell {}: n = {} with {}; the HC covariance needs n ≥ 2 and within-cell variation",

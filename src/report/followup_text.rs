@@ -19,6 +19,14 @@ fn decision(d: Option<Decision>) -> &'static str {
     }
 }
 
+/// Degrees of freedom: whole numbers without decimals, others to 4 significant digits.
+fn df(x: Option<f64>) -> String {
+    match x {
+        Some(v) if v.fract() == 0.0 && v.abs() < 1e9 => format!("{v:.0}"),
+        other => num(other, 4),
+    }
+}
+
 fn interval(lo: Option<f64>, hi: Option<f64>) -> String {
     match (lo, hi) {
         (Some(l), Some(h)) => format!("[{}, {}]", num(Some(l), 4), num(Some(h), 4)),
@@ -94,8 +102,8 @@ pub fn followup(f: &Followup, out: &mut dyn Write) -> io::Result<()> {
             ("effect", Align::Left),
         ]);
         for r in &f.tests {
-            let df = match (r.df1, r.df2) {
-                (Some(a), Some(b)) => format!("{}, {}", num(Some(a), 3), num(Some(b), 4)),
+            let dfs = match (r.df1, r.df2) {
+                (Some(a), Some(b)) => format!("{}, {}", df(Some(a)), df(Some(b))),
                 _ => "—".into(),
             };
             let mut p = p_value(r.p);
@@ -114,7 +122,7 @@ pub fn followup(f: &Followup, out: &mut dyn Write) -> io::Result<()> {
                 slice_name(&r.slice),
                 r.method.clone(),
                 num(r.statistic, 4),
-                df,
+                dfs,
                 p,
                 p_value(r.p_adjusted),
                 decision(r.decision).into(),
@@ -157,7 +165,7 @@ pub fn followup(f: &Followup, out: &mut dyn Write) -> io::Result<()> {
                 num(r.estimate, 4),
                 interval(r.ci_low, r.ci_high),
                 format!("{} = {}", r.statistic_name, num(r.statistic, 4)),
-                num(r.df, 4),
+                df(r.df),
                 p_value(r.p),
                 p_value(r.p_adjusted),
                 decision(r.decision).into(),
@@ -201,7 +209,7 @@ fn contrasts(list: &[PlannedContrast], out: &mut dyn Write) -> io::Result<()> {
                 num(r.estimate, 4),
                 interval(r.ci_low, r.ci_high),
                 num(r.statistic, 4),
-                num(r.df, 4),
+                df(r.df),
                 p_value(r.p),
                 p_value(r.p_adjusted),
                 decision(r.decision).into(),

@@ -56,7 +56,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         _ => None,
     };
     let (engine_results, concordance) = match config.job {
-        Job::Describe => (Vec::new(), Vec::new()),
+        Job::Describe | Job::Probe => (Vec::new(), Vec::new()),
         Job::Analyze => {
             let forms = SsForms::new(&design.layout, &fit.n, crate::config::SsType::Three)?;
             let ctx = Context { design, fit: &fit, forms: &forms, settings };
@@ -73,6 +73,11 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         }
         _ => Vec::new(),
     };
+    // Follow-ups of the terms that hold or are method-dependent (METHODS §9).
+    let followup = match config.job {
+        Job::Analyze => crate::followup::automatic(design, &fit, settings, &concordance)?,
+        _ => Vec::new(),
+    };
     let diagnostics = diagnosis.diagnostics;
     Ok(Analysis {
         schema: SCHEMA,
@@ -82,7 +87,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         engines: engine_results,
         concordance,
         sensitivity,
-        followup: Vec::new(),
+        followup,
         reproducibility: Reproducibility {
             version: env!("CARGO_PKG_VERSION").to_string(),
             seed: settings.seed,

@@ -40,6 +40,48 @@ pub enum Command {
     Plan(crate::plan_cli::PlanArgs),
     /// Combine plan shards (`plan --shard K/N`) into one result.
     Merge(crate::plan_cli::MergeArgs),
+    /// Probe effects: simple effects, pairwise comparisons, planned contrasts and trends.
+    Probe(ProbeArgs),
+}
+
+/// Arguments of `probe`.
+#[derive(Debug, Args)]
+pub struct ProbeArgs {
+    /// Data file in long format (as for `analyze`); `-` reads standard input.
+    pub data: String,
+    #[command(flatten)]
+    pub columns: ColumnArgs,
+    #[command(flatten)]
+    pub reading: ReadingArgs,
+    #[command(flatten)]
+    pub engine: EngineArgs,
+    /// Effect to probe: a factor, or factors joined by `:` for an interaction effect.
+    #[arg(long, value_name = "A[:B]")]
+    pub effect: Option<String>,
+    /// Conditioning factors: the effect is tested within each level combination of these.
+    #[arg(long, value_name = "B[,C]", value_delimiter = ',')]
+    pub at: Vec<String>,
+    /// Also probe the other way round (the --at factors at each level of the effect's).
+    #[arg(long)]
+    pub both_ways: bool,
+    /// Planned contrast of one factor's marginal means, e.g. "dose: 1,-1,0" (repeatable).
+    #[arg(long, value_name = "FACTOR: W1,W2,...")]
+    pub contrast: Vec<String>,
+    /// Orthogonal polynomial trends of a factor with numeric levels (repeatable).
+    #[arg(long, value_name = "FACTOR")]
+    pub trend: Vec<String>,
+    /// Output format on standard output.
+    #[arg(long, value_enum, default_value_t = ProbeFormatArg::Text)]
+    pub format: ProbeFormatArg,
+}
+
+/// Output formats of `probe`.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum ProbeFormatArg {
+    /// Aligned text tables.
+    Text,
+    /// The quorum.probe/1 JSON object.
+    Json,
 }
 
 /// Arguments of `analyze` and `describe`.
@@ -163,6 +205,37 @@ pub struct EngineArgs {
     /// about 10/B (reported next to the plain p, never instead of it).
     #[arg(long)]
     pub tail_approximation: bool,
+    /// Multiplicity adjustment within each follow-up family.
+    #[arg(long, value_enum, default_value_t = AdjustArg::Holm)]
+    pub adjust: AdjustArg,
+}
+
+/// Multiplicity adjustments of follow-up families.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum AdjustArg {
+    /// Holm step-down (familywise error, any dependence).
+    Holm,
+    /// Hochberg step-up (familywise error, independent or positively dependent tests).
+    Hochberg,
+    /// Benjamini–Hochberg (false discovery rate).
+    Bh,
+    /// Bonferroni.
+    Bonferroni,
+    /// No adjustment.
+    None,
+}
+
+impl From<AdjustArg> for quorum::followup::Adjust {
+    fn from(a: AdjustArg) -> Self {
+        use quorum::followup::Adjust;
+        match a {
+            AdjustArg::Holm => Adjust::Holm,
+            AdjustArg::Hochberg => Adjust::Hochberg,
+            AdjustArg::Bh => Adjust::Bh,
+            AdjustArg::Bonferroni => Adjust::Bonferroni,
+            AdjustArg::None => Adjust::None,
+        }
+    }
 }
 
 /// Reference distributions of the trimmed-means test.
@@ -272,7 +345,7 @@ impl Cli {
         match self.command {
             Command::Analyze(a) => run_config(a, Job::Analyze, command),
             Command::Describe(a) => run_config(a, Job::Describe, command),
-            Command::Completions { .. } | Command::Manpage => {
+            Command::Completions { .. } | Command::Manpage | Command::Probe(_) => {
                 Err(Error::usage("this command writes no analysis", "it is handled before the analysis starts"))
             }
             Command::Demo(d) => {
@@ -284,6 +357,45 @@ impl Cli {
                 Err(Error::internal("plan and merge are not analysis runs (main dispatches them first)"))
             }
         }
+    }
+}
+
+impl ProbeArgs {
+    /// Validates the flags of `probe` into a run configuration and a probe specification.
+    ///
+    /// # Errors
+    /// A usage error (exit 2) naming the flag and what to do.
+    pub fn into_config(self, command: String) -> Result<(Config, quorum::followup::ProbeSpec)> {
+        let format = match self.format {
+            ProbeFormatArg::Text => Format::Text,
+            ProbeFormatArg::Json => Format::Json,
+        };
+        let run = RunArgs {
+            data: self.data,
+            columns: self.columns,
+            reading: self.reading,
+            engine: self.engine,
+            output: OutputArgs { format: FormatArg::Text, report: None, quiet: true },
+            calibrate: crate::plan_cli::CalibrateArgs { calibrate: false, calibrate_sims: 0 },
+        };
+        let mut config = run_config(run, Job::Probe, command)?;
+        config.output.format = format;
+        let mut contrasts = Vec::new();
+        for c in &self.contrast {
+            contrasts.push(quorum::followup::ContrastSpec::parse(c)?);
+        }
+        let effect = match &self.effect {
+            Some(e) => e.split(':').map(|s| s.trim().to_string()).collect(),
+            None => Vec::new(),
+        };
+        let spec = quorum::followup::ProbeSpec {
+            effect,
+            at: self.at.iter().map(|s| s.trim().to_string()).collect(),
+            both_ways: self.both_ways,
+            contrasts,
+            trends: self.trend.iter().map(|s| s.trim().to_string()).collect(),
+        };
+        Ok((config, spec))
     }
 }
 
@@ -382,6 +494,7 @@ pub(crate) fn settings(e: &EngineArgs) -> Result<Settings> {
             TailApproximation::Off
         },
         calibration: None,
+        adjust: e.adjust.into(),
     })
 }
 

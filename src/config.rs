@@ -215,6 +215,8 @@ pub struct Settings {
     pub tail_approximation: TailApproximation,
     /// `analyze --calibrate`: simulated datasets of the calibration on the data (None: off).
     pub calibration: Option<u64>,
+    /// Multiplicity adjustment within each follow-up family (default Holm).
+    pub adjust: crate::followup::Adjust,
 }
 
 /// How the `permutation` engine builds its permuted data (METHODS §3.1).
@@ -276,6 +278,7 @@ impl Default for Settings {
             permutation_scheme: PermutationScheme::FreedmanLane,
             tail_approximation: TailApproximation::Off,
             calibration: None,
+            adjust: crate::followup::Adjust::Holm,
         }
     }
 }
@@ -307,6 +310,8 @@ pub enum Job {
     Analyze,
     /// Cell table and diagnostics only.
     Describe,
+    /// Follow-ups of chosen effects (`quorum probe`; run by `followup::probe`).
+    Probe,
 }
 
 /// One complete, validated run.

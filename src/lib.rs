@@ -21,6 +21,7 @@
 //! * [`diagnostics`] describes cells and checks assumptions; it never decides.
 //! * [`sensitivity`] reruns the engines without the points a drop rule flags (descriptive).
 //! * [`concordance`] compares the engines' decisions term by term.
+//! * [`followup`] probes effects: simple effects, pairwise comparisons, planned contrasts.
 //! * [`robust`] holds trimmed-mean building blocks (Welch–James, Yuen, robust d).
 //! * [`plan`] simulates power and type-I error of every engine (designed scenarios, `--like` data).
 //! * [`report`] renders the one [`results::Analysis`] value; it never computes statistics.
@@ -36,6 +37,7 @@ pub mod diagnostics;
 pub mod dist;
 pub mod engines;
 pub mod error;
+pub mod followup;
 pub mod model;
 pub mod plan;
 pub mod rank;

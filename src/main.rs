@@ -40,6 +40,7 @@ fn run(cli: cli::Cli) -> Result<(), Error> {
     let cli = match cli.command {
         cli::Command::Plan(args) => return plan_cli::plan(args, command_line()),
         cli::Command::Merge(args) => return plan_cli::merge(args, command_line()),
+        cli::Command::Probe(args) => return probe(args),
         command => cli::Cli { command },
     };
     let config = cli.into_config(command_line())?;
@@ -63,6 +64,20 @@ fn run(cli: cli::Cli) -> Result<(), Error> {
         eprintln!("report folder: {}", display_dir(dir));
     }
     Ok(())
+}
+
+/// `quorum probe`: its own report, text or JSON, on stdout.
+fn probe(args: cli::ProbeArgs) -> Result<(), Error> {
+    let (config, spec) = args.into_config(command_line())?;
+    let report = quorum::followup::probe(&config, &spec)?;
+    let mut stdout = io::stdout().lock();
+    let printed = quorum::report::followup_text::render_probe(&report, config.output.format, &mut stdout)
+        .and_then(|_| stdout.flush());
+    match printed {
+        Err(e) if e.kind() == io::ErrorKind::BrokenPipe => Ok(()),
+        Err(e) => Err(Error::Io { path: "<stdout>".into(), action: "writing", source: e }),
+        Ok(()) => Ok(()),
+    }
 }
 
 /// Completion script for `shell`, or the man page when `shell` is None, on stdout.

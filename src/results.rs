@@ -652,17 +652,112 @@ pub struct Sensitivity {
     pub notes: Vec<String>,
 }
 
-/// Follow-up tests of one effect.
+/// Follow-up tests of one effect (simple effects at each level combination of the
+/// conditioning factors, pairwise comparisons; METHODS §9). Built by `followup`.
 #[derive(Debug, Clone, Serialize)]
 pub struct Followup {
-    /// Effect probed.
+    /// Effect probed: a term id (`A`, or `A:B` in designs with three or more factors).
     pub effect: String,
-    /// Conditioning factors.
+    /// Conditioning factors (empty: comparisons of the effect's marginal means).
     pub at: Vec<String>,
-    /// Simple-effect tests.
-    pub tests: Vec<serde_json::Value>,
-    /// Pairwise comparisons.
-    pub pairwise: Vec<serde_json::Value>,
+    /// Simple-effect tests, one per method and slice, grouped by method.
+    pub tests: Vec<SimpleEffectTest>,
+    /// Pairwise comparisons, grouped by method and slice.
+    pub pairwise: Vec<PairwiseComparison>,
+    /// Why this follow-up was run (the verdict that triggered it, or `requested`).
+    pub origin: String,
+    /// Multiplicity adjustment applied within each family (`holm`, `hochberg`, `bh`,
+    /// `bonferroni`, `none`).
+    pub adjustment: String,
+    /// Remarks: how families are formed, what each method assumes, what was left out.
+    pub notes: Vec<String>,
+}
+
+/// The level of one conditioning factor that defines a slice.
+#[derive(Debug, Clone, PartialEq, Eq, Serialize)]
+pub struct SliceLevel {
+    /// Factor name.
+    pub factor: String,
+    /// Level label.
+    pub level: String,
+}
+
+/// One simple-effect test: the effect within one slice by one method.
+#[derive(Debug, Clone, Serialize)]
+pub struct SimpleEffectTest {
+    /// Method id: `classical-pooled`, `classical-slice`, `hc`, `trimmed`, `permutation-slice`.
+    pub method: String,
+    /// What is tested and with which error, in words.
+    pub hypothesis: String,
+    /// The conditioning levels.
+    pub slice: Vec<SliceLevel>,
+    /// F statistic (Welch–James F_WJ for `trimmed`).
+    pub statistic: Option<f64>,
+    /// Numerator df.
+    pub df1: Option<f64>,
+    /// Denominator df.
+    pub df2: Option<f64>,
+    /// Raw p-value.
+    pub p: Option<f64>,
+    /// p adjusted over the slices of this method (the family).
+    pub p_adjusted: Option<f64>,
+    /// Decision from the adjusted p at α (`undetermined` for a resampled p whose
+    /// Monte Carlo interval, scaled like the adjustment, contains α).
+    pub decision: Option<Decision>,
+    /// Monte Carlo details of the permutation version.
+    pub mc: Option<MonteCarlo>,
+    /// Effect size (partial η² of the slice contrast with its noncentral-F interval,
+    /// classical versions only).
+    pub effect: Option<Effect>,
+    /// Why this method cannot test this slice.
+    pub not_applicable: Option<String>,
+    /// Remarks.
+    pub notes: Vec<String>,
+}
+
+/// One pairwise comparison of two level combinations of the effect's factors.
+#[derive(Debug, Clone, Serialize)]
+pub struct PairwiseComparison {
+    /// Method id: `tukey-kramer`, `games-howell`, `yuen`, `trimmed-contrast`, `art-c`.
+    pub method: String,
+    /// Scale of the estimate: `means`, `trimmed means` or `aligned ranks`.
+    pub scale: String,
+    /// The conditioning levels (empty for marginal means).
+    pub slice: Vec<SliceLevel>,
+    /// Levels of the effect's factors of the first mean.
+    pub first: Vec<String>,
+    /// Levels of the effect's factors of the second mean.
+    pub second: Vec<String>,
+    /// First minus second (outcome units; mean ranks for `art-c`).
+    pub estimate: Option<f64>,
+    /// Standard error of the estimate.
+    pub se: Option<f64>,
+    /// Test statistic.
+    pub statistic: Option<f64>,
+    /// `q` (studentized range) or `t`.
+    pub statistic_name: String,
+    /// Degrees of freedom of the reference distribution.
+    pub df: Option<f64>,
+    /// Number of means in the family (the studentized range's k).
+    pub means_compared: usize,
+    /// Raw p (already familywise for the studentized-range methods).
+    pub p: Option<f64>,
+    /// Adjusted p within the family (equal to `p` for the studentized-range methods).
+    pub p_adjusted: Option<f64>,
+    /// Decision from the adjusted p at α.
+    pub decision: Option<Decision>,
+    /// Lower end of the interval for the estimate (simultaneous for the
+    /// studentized-range methods, per comparison otherwise).
+    pub ci_low: Option<f64>,
+    /// Upper end of the interval.
+    pub ci_high: Option<f64>,
+    /// Confidence level of the interval.
+    pub ci_level: Option<f64>,
+    /// Standardized effect size: Hedges' g with its noncentral-t interval (classical),
+    /// the robust d_R (trimmed).
+    pub effect: Option<Effect>,
+    /// Why this comparison cannot be computed.
+    pub not_applicable: Option<String>,
 }
 
 /// What it takes to reproduce the numbers.

@@ -4,6 +4,7 @@
 pub mod csv;
 pub mod diagnostics_text;
 pub mod folder;
+pub mod followup_text;
 pub mod json;
 pub mod style;
 pub mod table;

@@ -21,6 +21,7 @@ impl Render for Text {
             engine(e, out)?;
         }
         verdicts(a, out)?;
+        super::followup_text::followups(&a.followup, out)?;
         super::diagnostics_text::sensitivity(a, out)?;
         if let Some(c) = &a.calibration {
             crate::plan::text::calibration_section(c, out)?;

@@ -4,6 +4,7 @@
 //! published worked examples, open datasets); each module names its sources.
 
 mod dist;
+mod followup;
 mod support;
 
 mod bad_inputs;

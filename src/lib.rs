@@ -39,6 +39,7 @@ pub mod engines;
 pub mod error;
 pub mod followup;
 pub mod model;
+pub mod multiplicity;
 pub mod plan;
 pub mod rank;
 pub mod report;

@@ -13,7 +13,7 @@
 //! * `pairwise.rs`: Tukey–Kramer, Games–Howell, Yuen / trimmed contrasts, ART-C
 //!   (`rank::artc`), within slices and for marginal means (METHODS §9.2, §5.3);
 //! * `contrasts.rs`: planned contrasts and orthogonal-polynomial trends;
-//! * `multiplicity.rs`: Holm, Hochberg, Benjamini–Hochberg, Bonferroni (METHODS §9.4);
+//! * `crate::multiplicity`: Holm, Hochberg, Benjamini–Hochberg, Bonferroni (METHODS §9.4);
 //! * `nct.rs`: the noncentral t for Hedges' g intervals (not in `dist`).
 //!
 //! Every test reuses the engines' building blocks (`model::wald::WaldForm`,
@@ -24,7 +24,6 @@
 //! asks for.
 
 pub mod contrasts;
-pub mod multiplicity;
 pub mod nct;
 pub mod pairwise;
 pub mod permutation;
@@ -37,12 +36,12 @@ use crate::diagnostics::cells;
 use crate::engines::hc;
 use crate::error::{Error, Result};
 use crate::model::Fit;
+pub use crate::multiplicity::{self, Adjust};
 use crate::results::{
     CellSummary, Concordance, Decision, FactorSummary, Followup, InputSummary, Reproducibility, SliceLevel, Verdict,
 };
 use crate::robust::TrimmedCell;
 pub use contrasts::{ContrastSpec, PlannedContrast};
-pub use multiplicity::Adjust;
 use serde::Serialize;
 
 /// What `quorum probe` is asked to do (validated names; factor indices are resolved

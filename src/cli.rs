@@ -5,7 +5,7 @@
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use quorum::config::{
-    Config, DataSpec, Delimiter, Format, HcType, Job, OutputSpec, Settings, Source, SsType, WjReference,
+    Config, DataSpec, Delimiter, Format, HcType, Job, OutputSpec, Settings, Source, SsType, WildWeights, WjReference,
 };
 use quorum::error::{Error, Result};
 use std::path::PathBuf;
@@ -138,6 +138,27 @@ pub struct EngineArgs {
     /// Heteroscedasticity-consistent covariance of the `hc` engine: 0, 1, 2, 3 or 4.
     #[arg(long, value_name = "0-4", default_value_t = 3, value_parser = clap::value_parser!(u8).range(0..=4))]
     pub hc: u8,
+    /// Weights of the bootstrap engine's wild bootstrap test.
+    #[arg(long, value_enum, default_value_t = WildWeightsArg::Rademacher)]
+    pub wild_weights: WildWeightsArg,
+}
+
+/// Wild-bootstrap weight distributions.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum WildWeightsArg {
+    /// ±1 with probability ½ each.
+    Rademacher,
+    /// Mammen's two-point weights (third moment 1).
+    Mammen,
+}
+
+impl From<WildWeightsArg> for WildWeights {
+    fn from(w: WildWeightsArg) -> WildWeights {
+        match w {
+            WildWeightsArg::Rademacher => WildWeights::Rademacher,
+            WildWeightsArg::Mammen => WildWeights::Mammen,
+        }
+    }
 }
 
 /// Reference distributions of the trimmed-means test.
@@ -297,6 +318,7 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         quiet: false,
         wj_reference: e.wj_reference.into(),
         hc: HcType::ALL[usize::from(e.hc.min(4))],
+        wild_weights: e.wild_weights.into(),
     })
 }
 

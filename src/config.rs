@@ -178,6 +178,27 @@ impl HcType {
     pub const ALL: [HcType; 5] = [HcType::Hc0, HcType::Hc1, HcType::Hc2, HcType::Hc3, HcType::Hc4];
 }
 
+/// Weights of the `bootstrap` engine's wild bootstrap (METHODS §8.6): each restricted
+/// residual is multiplied by an independent draw v with E v = 0 and E v² = 1.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum WildWeights {
+    /// v = ±1 with probability ½ each (Davidson & Flachaire 2008; the default).
+    Rademacher,
+    /// Mammen's (1993) two-point weights: v = −(√5 − 1)/2 with probability
+    /// (√5 + 1)/(2√5), else (√5 + 1)/2, so that also E v³ = 1.
+    Mammen,
+}
+
+impl WildWeights {
+    /// The id used on the command line and in `settings` (`rademacher`, `mammen`).
+    pub fn id(self) -> &'static str {
+        match self {
+            WildWeights::Rademacher => "rademacher",
+            WildWeights::Mammen => "mammen",
+        }
+    }
+}
+
 /// Settings shared by the engines.
 #[derive(Debug, Clone)]
 pub struct Settings {
@@ -207,6 +228,8 @@ pub struct Settings {
     pub wj_reference: WjReference,
     /// HC covariance type of the `hc` engine (default HC3).
     pub hc: HcType,
+    /// Weights of the `bootstrap` engine's wild bootstrap (default Rademacher).
+    pub wild_weights: WildWeights,
 }
 
 /// The default seed of every random stream (METHODS §10.2).
@@ -228,6 +251,7 @@ impl Default for Settings {
             quiet: false,
             wj_reference: WjReference::F,
             hc: HcType::Hc3,
+            wild_weights: WildWeights::Rademacher,
         }
     }
 }

@@ -9,6 +9,7 @@
 //! [`Engine`], and add one line to [`registry`].
 
 pub mod art;
+pub mod bootstrap;
 pub mod classical;
 pub mod hc;
 pub mod rank_ats;
@@ -55,6 +56,7 @@ pub fn registry() -> Vec<Box<dyn Engine>> {
         Box::new(trimmed::Trimmed),
         Box::new(art::Art),
         Box::new(rank_ats::RankAts),
+        Box::new(bootstrap::Bootstrap),
     ]
 }
 

@@ -172,47 +172,7 @@ pub fn wild_test(
     observed: &[Option<f64>],
     settings: &Settings,
 ) -> Result<Vec<Option<WildCount>>> {
-    let ranges: Vec<Range<usize>> = (0..design.n_cells()).map(|c| design.cell_range(c)).collect();
-    let y = design.y();
-    let mut e = vec![0.0; y.len()];
-    let mut sum_e = Vec::with_capacity(ranges.len());
-    let mut sum_e2 = Vec::with_capacity(ranges.len());
-    for (c, r) in ranges.iter().enumerate() {
-        let (mut s, mut q) = (0.0, 0.0);
-        for i in r.clone() {
-            e[i] = y[i] - fit.mean[c];
-            s += e[i];
-            q += e[i] * e[i];
-        }
-        sum_e.push(s);
-        sum_e2.push(q);
-    }
-    let mut restricted = Vec::with_capacity(forms.len());
-    let mut shift = Vec::with_capacity(forms.len());
-    for (t, form) in forms.iter().enumerate() {
-        let proj = TermProjection::new(form, &fit.n, &fit.mean).ok_or_else(|| {
-            Error::internal(format!(
-                "bootstrap engine: the restricted fit of term {} is singular",
-                design.terms()[t].name
-            ))
-        })?;
-        let delta = proj.restricted_shift(&fit.n);
-        restricted.push(fit.mean.iter().zip(&delta).map(|(m, d)| m - d).collect());
-        shift.push(delta);
-    }
-    let data = WildData {
-        ranges,
-        e,
-        n: fit.n.iter().map(|&n| n as f64).collect(),
-        sum_e,
-        sum_e2,
-        restricted,
-        shift,
-        forms,
-        observed,
-        weights: settings.wild_weights,
-        seed: settings.seed,
-    };
+    let data = wild_data(design, fit, forms, observed, settings)?;
     let active: Vec<usize> = (0..forms.len()).filter(|&t| observed[t].is_some()).collect();
     let b0 = settings.resamples;
     let (exc, und) = count_range(&data, &active, 0, b0);
@@ -247,6 +207,108 @@ pub fn wild_test(
     Ok(counts)
 }
 
+/// The restricted cell means μ̃ of term `form` (centred outcome scale; add the design's
+/// location for outcome units): the fit of the sum-coded model without the term's
+/// columns (METHODS §8.6 step 2). `None` when L D⁻¹ L' is singular.
+pub fn restricted_means(fit: &Fit, form: &WaldForm) -> Option<Vec<f64>> {
+    let proj = TermProjection::new(form, &fit.n, &fit.mean)?;
+    Some(fit.mean.iter().zip(proj.restricted_shift(&fit.n)).map(|(m, d)| m - d).collect())
+}
+
+/// F*_S of every term for wild resamples `start..end`, in resample order (`None` where
+/// F* is undefined): the values the engine counts, for checks against an outside
+/// implementation.
+///
+/// # Errors
+/// As [`wild_test`].
+pub fn wild_replicates(
+    design: &Design,
+    fit: &Fit,
+    forms: &[WaldForm],
+    settings: &Settings,
+    start: u64,
+    end: u64,
+) -> Result<Vec<Vec<Option<f64>>>> {
+    let observed = vec![None; forms.len()];
+    let data = wild_data(design, fit, forms, &observed, settings)?;
+    let mammen = mammen_weights();
+    let chunks = resample::par_chunks(start, end, |task| {
+        let n_cells = data.ranges.len();
+        let mut stream = task.stream(data.seed, Purpose::WildWeights, 0, 0);
+        let mut sums = WeightSums::new(n_cells);
+        let (mut mean, mut var) = (vec![0.0; n_cells], vec![0.0; n_cells]);
+        let mut scratch: Vec<WaldScratch> = forms.iter().map(WaldForm::scratch).collect();
+        let mut out: Vec<Vec<Option<f64>>> = vec![Vec::new(); forms.len()];
+        for b in task.first..task.hi {
+            weight_sums(&data, &mut stream, mammen, &mut sums);
+            if b >= task.lo {
+                for (t, o) in out.iter_mut().enumerate() {
+                    o.push(f_star(&data, t, &sums, &mut mean, &mut var, &mut scratch[t]));
+                }
+            }
+        }
+        out
+    });
+    let mut all: Vec<Vec<Option<f64>>> = vec![Vec::new(); forms.len()];
+    for chunk in chunks {
+        for (a, c) in all.iter_mut().zip(chunk) {
+            a.extend(c);
+        }
+    }
+    Ok(all)
+}
+
+/// Residuals, restricted fits and settings of a wild-bootstrap pass.
+fn wild_data<'a>(
+    design: &Design,
+    fit: &Fit,
+    forms: &'a [WaldForm],
+    observed: &'a [Option<f64>],
+    settings: &Settings,
+) -> Result<WildData<'a>> {
+    let ranges: Vec<Range<usize>> = (0..design.n_cells()).map(|c| design.cell_range(c)).collect();
+    let y = design.y();
+    let mut e = vec![0.0; y.len()];
+    let mut sum_e = Vec::with_capacity(ranges.len());
+    let mut sum_e2 = Vec::with_capacity(ranges.len());
+    for (c, r) in ranges.iter().enumerate() {
+        let (mut s, mut q) = (0.0, 0.0);
+        for i in r.clone() {
+            e[i] = y[i] - fit.mean[c];
+            s += e[i];
+            q += e[i] * e[i];
+        }
+        sum_e.push(s);
+        sum_e2.push(q);
+    }
+    let mut restricted = Vec::with_capacity(forms.len());
+    let mut shift = Vec::with_capacity(forms.len());
+    for (t, form) in forms.iter().enumerate() {
+        let proj = TermProjection::new(form, &fit.n, &fit.mean).ok_or_else(|| {
+            Error::internal(format!(
+                "bootstrap engine: the restricted fit of term {} is singular",
+                design.terms()[t].name
+            ))
+        })?;
+        let delta = proj.restricted_shift(&fit.n);
+        restricted.push(fit.mean.iter().zip(&delta).map(|(m, d)| m - d).collect());
+        shift.push(delta);
+    }
+    Ok(WildData {
+        ranges,
+        e,
+        n: fit.n.iter().map(|&n| n as f64).collect(),
+        sum_e,
+        sum_e2,
+        restricted,
+        shift,
+        forms,
+        observed,
+        weights: settings.wild_weights,
+        seed: settings.seed,
+    })
+}
+
 /// Per-cell weighted sums of one resample: Σe v, Σv, Σe²v², Σe v², Σv².
 struct WeightSums {
     ev: Vec<f64>,
@@ -254,6 +316,13 @@ struct WeightSums {
     e2v2: Vec<f64>,
     ev2: Vec<f64>,
     v2: Vec<f64>,
+}
+
+impl WeightSums {
+    fn new(n_cells: usize) -> WeightSums {
+        let z = vec![0.0; n_cells];
+        WeightSums { ev: z.clone(), v: z.clone(), e2v2: z.clone(), ev2: z.clone(), v2: z }
+    }
 }
 
 /// Draws the weights of one resample (METHODS §10.3: Rademacher bit i mod 64 of word
@@ -334,13 +403,7 @@ fn count_range(data: &WildData<'_>, terms: &[usize], start: u64, end: u64) -> (V
     let per_chunk = resample::par_chunks(start, end, |task| {
         let n_cells = data.ranges.len();
         let mut stream = task.stream(data.seed, Purpose::WildWeights, 0, 0);
-        let mut sums = WeightSums {
-            ev: vec![0.0; n_cells],
-            v: vec![0.0; n_cells],
-            e2v2: vec![0.0; n_cells],
-            ev2: vec![0.0; n_cells],
-            v2: vec![0.0; n_cells],
-        };
+        let mut sums = WeightSums::new(n_cells);
         let mut mean = vec![0.0; n_cells];
         let mut var = vec![0.0; n_cells];
         let mut scratch: Vec<WaldScratch> = terms.iter().map(|&t| data.forms[t].scratch()).collect();
@@ -564,5 +627,126 @@ impl Engine for Bootstrap {
             omitted: rep.omitted.clone(),
         }));
         Ok(result)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::config::SsType;
+    use crate::design::forms::SsForms;
+    use crate::design::Factor;
+    use crate::resample::{Stream, StreamKey};
+
+    fn factor(name: &str, a: usize) -> Factor {
+        Factor {
+            name: name.into(),
+            levels: (1..=a).map(|i| format!("{}{i}", name.to_lowercase())).collect(),
+            measured: false,
+        }
+    }
+
+    /// METHODS §12.0 cells (invented data).
+    fn methods12() -> Design {
+        let cells = vec![
+            vec![9.6, 10.2, 9.9, 10.0, 9.2],
+            vec![9.1, 9.8, 11.3, 9.7, 9.8, 12.1, 10.7],
+            vec![11.9, 12.0, 13.5, 15.0, 13.2, 16.2],
+            vec![13.8, 9.6, 9.4, 9.9, 9.2, 10.1, 9.8, 9.9],
+            vec![10.9, 11.6, 14.8, 14.9, 10.3, 12.6],
+            vec![13.4, 14.9, 18.5, 19.2, 12.1, 14.9, 17.6],
+        ];
+        Design::from_cells("y", vec![factor("A", 2), factor("B", 3)], &cells).unwrap()
+    }
+
+    #[test]
+    fn projection_gives_the_type_iii_ss_and_a_restricted_fit_in_the_null_space() {
+        let d = methods12();
+        let fit = Fit::new(&d);
+        let forms = SsForms::new(&d.layout, &fit.n, SsType::Three).unwrap();
+        for t in 0..3 {
+            let form = WaldForm::new(&d.layout, t);
+            let p = TermProjection::new(&form, &fit.n, &fit.mean).unwrap();
+            let ss = forms.ss(t, &fit.centred_sums);
+            assert!((p.ss / ss - 1.0).abs() < 1e-12, "term {t}");
+            let delta = p.restricted_shift(&fit.n);
+            let weighted: f64 = delta.iter().zip(&fit.n).map(|(x, &n)| n as f64 * x * x).sum();
+            assert!((weighted / ss - 1.0).abs() < 1e-12);
+            let restricted = restricted_means(&fit, &form).unwrap();
+            for r in 0..form.q() {
+                let l_mu: f64 = form.row(r).iter().zip(&restricted).map(|(a, b)| a * b).sum();
+                assert!(l_mu.abs() < 1e-12, "L μ̃ = {l_mu}");
+            }
+        }
+    }
+
+    #[test]
+    fn rank_one_deletion_update_equals_a_recompute() {
+        let d = methods12();
+        let fit = Fit::new(&d);
+        for t in 0..3 {
+            let form = WaldForm::new(&d.layout, t);
+            let p = TermProjection::new(&form, &fit.n, &fit.mean).unwrap();
+            for c in 0..6 {
+                for delta in [-0.7, 0.0, 0.31] {
+                    let mut mu = fit.mean.clone();
+                    mu[c] += delta;
+                    let v: Vec<f64> =
+                        fit.n.iter().enumerate().map(|(j, &n)| 1.0 / (n - usize::from(j == c)) as f64).collect();
+                    let want = form.statistic(&mu, &v, &mut form.scratch()).unwrap();
+                    let got = p.ss_after_deletion(c, fit.n[c], delta);
+                    assert!((got / want - 1.0).abs() < 1e-11, "t {t} c {c}: {got} vs {want}");
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn unit_weights_reproduce_the_observed_f() {
+        // Property: with every v = 1, y* = μ̃ + ẽ = y, so F* = F.
+        let d = methods12();
+        let fit = Fit::new(&d);
+        let forms: Vec<WaldForm> = (0..3).map(|t| WaldForm::new(&d.layout, t)).collect();
+        let observed = observed_f(&fit, &forms);
+        for weights in [WildWeights::Rademacher, WildWeights::Mammen] {
+            let settings = Settings { wild_weights: weights, ..Settings::default() };
+            let data = wild_data(&d, &fit, &forms, &observed, &settings).unwrap();
+            let mut s = WeightSums::new(6);
+            for c in 0..6 {
+                s.ev[c] = data.sum_e[c];
+                s.v[c] = data.n[c];
+                s.e2v2[c] = data.sum_e2[c];
+                s.ev2[c] = data.sum_e[c];
+                s.v2[c] = data.n[c];
+            }
+            let (mut mean, mut var) = (vec![0.0; 6], vec![0.0; 6]);
+            for t in 0..3 {
+                let f = f_star(&data, t, &s, &mut mean, &mut var, &mut forms[t].scratch()).unwrap();
+                assert!((f / observed[t].unwrap() - 1.0).abs() < 1e-12, "{weights:?} term {t}");
+            }
+        }
+    }
+
+    #[test]
+    fn mammen_weights_have_the_stated_moments_in_the_stream() {
+        // Exact two-point moments E v = 0, E v² = 1, E v³ = 1 (Mammen 1993; METHODS §8.6),
+        // and the sample moments of 10⁶ draws from quorum's uniform stream within 5 SE.
+        let (low, high, p) = mammen_weights();
+        let m = |k: i32| p * low.powi(k) + (1.0 - p) * high.powi(k);
+        assert!(m(1).abs() < 1e-15 && (m(2) - 1.0).abs() < 1e-15 && (m(3) - 1.0).abs() < 1e-15);
+        let mut s = Stream::new(9, StreamKey { purpose: Purpose::Auxiliary, term: 0, chunk: 0, aux: 7 });
+        let n = 1_000_000;
+        let (mut s1, mut s2, mut s3) = (0.0, 0.0, 0.0);
+        for _ in 0..n {
+            let v = if s.uniform() < p { low } else { high };
+            s1 += v;
+            s2 += v * v;
+            s3 += v * v * v;
+        }
+        let nf = n as f64;
+        // sd of v, v², v³: 1, √(E v⁴ − 1) = 1, √(E v⁶ − 1) = 2 (E v⁴ = 2, E v⁶ = 5).
+        assert!((s1 / nf).abs() < 5.0 / nf.sqrt());
+        assert!((s2 / nf - 1.0).abs() < 5.0 / nf.sqrt());
+        assert!((s3 / nf - 1.0).abs() < 5.0 * 2.0 / nf.sqrt());
     }
 }

@@ -7,7 +7,8 @@
 //! leave-one-out values stratum by stratum ([`Acceleration`]). Conventions follow scipy's
 //! `stats.bootstrap` so that the same θ* give the same interval: type-7 quantiles,
 //! z₀ from the proportion of θ* below θ̂ with ties counted one half, and
-//! z_{α/2} = Φ⁻¹((1 − level)/2).
+//! z_{α/2} = Φ⁻¹((1 − level)/2). One deliberate difference: values within a relative
+//! [`TIE_REL`] of θ̂ count as ties (see there).
 //!
 //! **Monte Carlo error of an end.** An interval end is a quantile of B random draws, so
 //! it carries resampling noise that more resamples would shrink. Its standard error is
@@ -147,11 +148,22 @@ pub fn percentile(sorted: &[f64], level: f64) -> Result<Ends, IntervalProblem> {
     Ok(Ends { low: end(a), high: end(1.0 - a) })
 }
 
-/// z₀ = Φ⁻¹(p₀), p₀ = (#{θ* < θ̂} + #{θ* ≤ θ̂})/(2B) (ties count one half; METHODS §8.3).
-/// Returns (z₀, p₀); z₀ is infinite when p₀ is 0 or 1.
+/// Resampled values within TIE_REL·(|θ̂| + range of θ*) of θ̂ count as ties in z₀. With
+/// rounded data (one decimal, say) many resamples tie θ̂ in exact arithmetic, and
+/// without a tolerance the order of floating-point summation alone would decide on which
+/// side they fall (scipy counts exact floating equality only; for data without such
+/// ties the two agree).
+pub const TIE_REL: f64 = 1e-10;
+
+/// z₀ = Φ⁻¹(p₀), p₀ = (#{θ* < θ̂} + #{θ* ≤ θ̂})/(2B) (ties count one half; METHODS §8.3;
+/// ties within [`TIE_REL`]). Returns (z₀, p₀); z₀ is infinite when p₀ is 0 or 1.
 pub fn bias_correction(sorted: &[f64], estimate: f64) -> (f64, f64) {
-    let below = sorted.partition_point(|&x| x < estimate);
-    let at_or_below = sorted.partition_point(|&x| x <= estimate);
+    let (Some(first), Some(last)) = (sorted.first(), sorted.last()) else {
+        return (f64::NAN, f64::NAN);
+    };
+    let tol = TIE_REL * (estimate.abs() + (last - first).abs());
+    let below = sorted.partition_point(|&x| x < estimate - tol);
+    let at_or_below = sorted.partition_point(|&x| x <= estimate + tol);
     let p0 = (below + at_or_below) as f64 / (2.0 * sorted.len() as f64);
     (dist::normal_quantile(p0), p0)
 }
@@ -282,6 +294,14 @@ mod tests {
         assert_eq!(bca(&[1.0, 2.0, 3.0], 5.0, 0.0, 0.95).unwrap_err(), IntervalProblem::BiasUndefined);
         assert_eq!(bca(&[1.0, 2.0, 3.0], 2.0, f64::NAN, 0.95).unwrap_err(), IntervalProblem::AccelerationUndefined);
         assert_eq!(bca(&[1.0, 2.0, 3.0], 2.0, 5.0, 0.95).unwrap_err(), IntervalProblem::AdjustmentOutOfRange);
+    }
+
+    #[test]
+    fn ties_within_rounding_count_one_half() {
+        // 0.1 + 0.2 ≠ 0.3 in floating point; the tie still counts one half.
+        let x = [0.1, 0.1 + 0.2, 0.5];
+        let (_, p0) = bias_correction(&x, 0.3);
+        assert_eq!(p0, (1.0 + 2.0) / 6.0);
     }
 
     #[test]

@@ -5,6 +5,7 @@
 
 mod support;
 
+mod bootstrap;
 mod classical;
 mod cli;
 mod descriptives;

@@ -858,3 +858,156 @@ pub fn summarise(rep: &Replicates, level: f64) -> Vec<BootstrapInterval> {
         })
         .collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::config::SsType;
+    use crate::design::Factor;
+    use crate::resample::StreamKey;
+
+    fn factor(name: &str, a: usize) -> Factor {
+        Factor {
+            name: name.into(),
+            levels: (1..=a).map(|i| format!("{}{i}", name.to_lowercase())).collect(),
+            measured: false,
+        }
+    }
+
+    /// METHODS §12.0 cells (invented data) with a tie added to the last cell.
+    fn cells() -> Vec<Vec<f64>> {
+        vec![
+            vec![9.6, 10.2, 9.9, 10.0, 9.2],
+            vec![9.1, 9.8, 11.3, 9.7, 9.8, 12.1, 10.7],
+            vec![11.9, 12.0, 13.5, 15.0, 13.2, 16.2],
+            vec![13.8, 9.6, 9.4, 9.9, 9.2, 10.1, 9.8, 9.9],
+            vec![10.9, 11.6, 14.8, 14.9, 10.3, 12.6],
+            vec![13.4, 14.9, 18.5, 19.2, 12.1, 14.9, 17.6],
+        ]
+    }
+
+    fn design(cells: &[Vec<f64>]) -> Design {
+        Design::from_cells("y", vec![factor("A", 2), factor("B", 3)], cells).unwrap()
+    }
+
+    fn close(a: f64, b: f64, rel: f64) -> bool {
+        (a - b).abs() <= rel * b.abs().max(1e-12) || (a.is_nan() && b.is_nan())
+    }
+
+    #[test]
+    fn leave_one_out_trimmed_summaries_match_a_full_recompute() {
+        // Property: the O(1) prefix-sum version equals TrimmedCell::from_sorted on the
+        // sample without that observation (ties included).
+        let values = [3.0, 1.0, 4.0, 1.0, 5.0, 9.0, 2.0, 6.0, 5.0, 3.0, 5.0];
+        let cd = CellData::new(&values);
+        for gamma in [0.0, 0.1, 0.2, 0.3, 0.45] {
+            for k in 0..values.len() {
+                let fast = cd.loo_trimmed(k, gamma);
+                let rest: Vec<f64> = cd.sorted.iter().enumerate().filter(|&(i, _)| i != k).map(|(_, x)| *x).collect();
+                let slow = TrimmedCell::from_sorted(&rest, gamma);
+                assert_eq!((fast.g, fast.h, fast.n), (slow.g, slow.h, slow.n));
+                assert!(close(fast.trimmed_mean, cd.centre + slow.trimmed_mean, 1e-13), "γ {gamma} k {k}");
+                assert!(close(fast.winsorized_variance, slow.winsorized_variance, 1e-12), "γ {gamma} k {k}");
+                assert!(close(fast.d, slow.d, 1e-12));
+            }
+        }
+    }
+
+    #[test]
+    fn counted_resample_equals_sorting_the_canonical_draw() {
+        // Property: counting canonical indices at their sorted positions gives the same
+        // multiset as drawing y_c,j in canonical order and sorting (METHODS §10.3).
+        let d = design(&cells());
+        let fit = Fit::new(&d);
+        let forms = SsForms::new(&d.layout, &fit.n, SsType::Three).unwrap();
+        let cds: Vec<CellData> = (0..6).map(|c| CellData::new(d.cell_values(c))).collect();
+        let specs = catalogue(&d).0;
+        let eval = Evaluator {
+            specs: &specs,
+            forms: &forms,
+            wald: Vec::new(),
+            rows: vec![None; 3],
+            n: fit.n.clone(),
+            n_total: fit.n_total,
+            grand: fit.grand_mean,
+            term_df: vec![1, 2, 2],
+            gamma: 0.2,
+            need_trimmed: true,
+            need_ss: false,
+        };
+        let key = StreamKey { purpose: Purpose::Bootstrap, term: 0, chunk: 3, aux: 0 };
+        let mut a = Stream::new(5, key);
+        let mut b = Stream::new(5, key);
+        let mut st = observed_state(&cds, 0.2);
+        let (mut counts, mut buf) = (vec![0u32; 8], vec![0.0; 8]);
+        for _ in 0..20 {
+            draw(&mut a, &cds, &eval, &mut counts, &mut buf, &mut st);
+            for c in 0..6 {
+                let v = d.cell_values(c);
+                let mut s: Vec<f64> = (0..v.len()).map(|_| v[b.bounded(v.len() as u64) as usize]).collect();
+                let mean = s.iter().sum::<f64>() / s.len() as f64;
+                s.sort_by(f64::total_cmp);
+                let t = TrimmedCell::from_sorted(&s, 0.2);
+                assert!(close(st.mean[c], mean, 1e-13));
+                assert!(close(st.trimmed[c].trimmed_mean, t.trimmed_mean, 1e-13));
+                assert!(close(st.trimmed[c].winsorized_variance, t.winsorized_variance, 1e-11));
+                let ss: f64 = s.iter().map(|x| (x - mean) * (x - mean)).sum();
+                assert!((st.ss[c] - ss).abs() < 1e-10);
+            }
+        }
+    }
+
+    #[test]
+    fn fast_jackknife_equals_deleting_each_observation_and_recomputing() {
+        // Property: the acceleration from O(1) updates equals the stratified jackknife
+        // computed by rebuilding the design without each observation in turn.
+        let cells = cells();
+        let d = design(&cells);
+        let fit = Fit::new(&d);
+        let forms = SsForms::new(&d.layout, &fit.n, SsType::Three).unwrap();
+        let rep = replicate(&d, &fit, &forms, 0.2, 0, 1).unwrap();
+        let mut acc = vec![Acceleration::new(); rep.len()];
+        for c in 0..cells.len() {
+            let mut loo: Vec<Vec<f64>> = vec![Vec::new(); rep.len()];
+            for i in 0..cells[c].len() {
+                let mut smaller = cells.clone();
+                smaller[c].remove(i);
+                let d1 = design(&smaller);
+                let f1 = Fit::new(&d1);
+                let forms1 = SsForms::new(&d1.layout, &f1.n, SsType::Three).unwrap();
+                let r1 = replicate(&d1, &f1, &forms1, 0.2, 0, 1).unwrap();
+                for (j, v) in r1.estimates.iter().enumerate() {
+                    loo[j].push(*v);
+                }
+            }
+            for (j, values) in loo.iter().enumerate() {
+                acc[j].add_stratum(values);
+            }
+        }
+        for (j, a) in acc.iter().enumerate() {
+            let (fast, slow) = (rep.acceleration[j], a.value());
+            assert!(
+                (fast - slow).abs() <= 1e-9 * slow.abs() + 1e-12,
+                "{:?} {}: fast {fast} slow {slow}",
+                rep.specs[j].family,
+                rep.specs[j].label
+            );
+        }
+    }
+
+    #[test]
+    fn catalogue_of_a_2x3_design_lists_every_family() {
+        let (specs, omitted) = catalogue(&design(&cells()));
+        assert!(omitted.is_empty());
+        let count = |f: IntervalFamily| specs.iter().filter(|s| s.family == f).count();
+        assert_eq!(count(IntervalFamily::CellMean), 6);
+        assert_eq!(count(IntervalFamily::CellTrimmedMean), 6);
+        assert_eq!(count(IntervalFamily::MarginalMeanUnweighted), 5);
+        assert_eq!(count(IntervalFamily::MarginalMeanWeighted), 5);
+        assert_eq!(count(IntervalFamily::LevelDifference), 1 + 3);
+        assert_eq!(count(IntervalFamily::InteractionContrast), 3);
+        assert_eq!(count(IntervalFamily::PartialEtaSquared), 3);
+        assert_eq!(count(IntervalFamily::PartialOmegaSquared), 3);
+        assert_eq!(count(IntervalFamily::RobustD), 1);
+    }
+}

@@ -247,6 +247,8 @@ struct CellData {
     sorted: Vec<f64>,
     /// Sorted position of the i-th observation in canonical order.
     rank: Vec<u32>,
+    /// Values minus the cell mean, canonical order.
+    canonical: Vec<f64>,
     /// Prefix sums of `sorted` (length n + 1).
     prefix: Vec<f64>,
     /// Prefix sums of squares of `sorted` (length n + 1).
@@ -277,7 +279,69 @@ impl CellData {
             prefix.push(s);
             prefix2.push(q);
         }
-        CellData { sorted, rank, prefix, prefix2, centre }
+        CellData { sorted, rank, canonical: d, prefix, prefix2, centre }
+    }
+
+    /// Trimmed summaries of the sample that holds `counts[k]` copies of `sorted[k]`
+    /// (Σ = `sum`, Σ² = `sq` over the whole sample), with the conventions of
+    /// [`TrimmedCell::from_sorted`]: only the two trimmed tails are walked (O(γn)), the
+    /// kept sums are the totals minus the tails, and x_(g+1), x_(n−g) are found on the way.
+    fn trimmed_from_counts(&self, counts: &[u32], sum: f64, sq: f64, gamma: f64) -> TrimmedCell {
+        let n = self.n();
+        let g = summary::trim_count(gamma, n);
+        let h = n.saturating_sub(2 * g);
+        let mut cell =
+            TrimmedCell { gamma, n, g, h, trimmed_mean: f64::NAN, winsorized_variance: f64::NAN, d: f64::NAN };
+        if h == 0 {
+            return cell;
+        }
+        let g32 = g as u32;
+        // Lower tail: positions 0..g; `lo` is the value at position g.
+        let (mut cum, mut k) = (0u32, 0usize);
+        let (mut low_sum, mut low_sq) = (0.0, 0.0);
+        while cum + counts[k] <= g32 {
+            let (m, x) = (counts[k] as f64, self.sorted[k]);
+            low_sum += m * x;
+            low_sq += m * x * x;
+            cum += counts[k];
+            k += 1;
+        }
+        let lo = self.sorted[k];
+        let part = (g32 - cum) as f64;
+        low_sum += part * lo;
+        low_sq += part * lo * lo;
+        // Upper tail: positions n−g..n; `hi` is the value at position n−g−1.
+        let (mut cum, mut k) = (0u32, n - 1);
+        let (mut up_sum, mut up_sq) = (0.0, 0.0);
+        while cum + counts[k] <= g32 {
+            let (m, x) = (counts[k] as f64, self.sorted[k]);
+            up_sum += m * x;
+            up_sq += m * x * x;
+            cum += counts[k];
+            k -= 1;
+        }
+        let hi = self.sorted[k];
+        let part = (g32 - cum) as f64;
+        up_sum += part * hi;
+        up_sq += part * hi * hi;
+        let kept = sum - low_sum - up_sum;
+        cell.trimmed_mean = self.centre + kept / h as f64;
+        if n < 2 {
+            return cell;
+        }
+        let var = if lo == hi {
+            0.0
+        } else {
+            let gf = g as f64;
+            let w_sum = kept + gf * (lo + hi);
+            let w_sq = (sq - low_sq - up_sq) + gf * (lo * lo + hi * hi);
+            ((w_sq - w_sum * w_sum / n as f64) / (n - 1) as f64).max(0.0)
+        };
+        cell.winsorized_variance = var;
+        if h >= 2 {
+            cell.d = (n - 1) as f64 * var / (h * (h - 1)) as f64;
+        }
+        cell
     }
 
     fn n(&self) -> usize {
@@ -518,9 +582,7 @@ fn observed_state(cells: &[CellData], gamma: f64) -> CellState {
         let (s, q) = (cd.prefix[cd.n()], cd.prefix2[cd.n()]);
         st.mean.push(cd.centre + s / n);
         st.ss.push((q - s * s / n).max(0.0));
-        let mut t = TrimmedCell::from_sorted(&cd.sorted, gamma);
-        t.trimmed_mean += cd.centre;
-        st.trimmed.push(t);
+        st.trimmed.push(cd.trimmed_from_counts(&vec![1; cd.n()], s, q, gamma));
     }
     st
 }
@@ -532,12 +594,11 @@ fn resample_all(eval: &Evaluator<'_>, cells: &[CellData], resamples: u64, seed: 
     let per_chunk = resample::par_chunks(0, resamples, |task| {
         let mut stream = task.stream(seed, Purpose::Bootstrap, 0, 0);
         let mut counts = vec![0u32; max_n];
-        let mut buf = vec![0.0; max_n];
         let mut st = observed_state(cells, eval.gamma);
         let mut scratch = eval.scratch();
         let mut out = vec![0.0; k * (task.hi - task.lo) as usize];
         for b in task.first..task.hi {
-            draw(&mut stream, cells, eval, &mut counts, &mut buf, &mut st);
+            draw(&mut stream, cells, eval, &mut counts, &mut st);
             if b >= task.lo {
                 let at = (b - task.lo) as usize * k;
                 eval.evaluate(&st, &mut scratch, &mut out[at..at + k]);
@@ -556,45 +617,36 @@ fn resample_all(eval: &Evaluator<'_>, cells: &[CellData], resamples: u64, seed: 
     draws
 }
 
-/// One stratified resample: per cell, n_c draws of canonical indices, counted at their
-/// sorted positions and expanded into a sorted sample; cell summaries into `st`.
-fn draw(
-    stream: &mut Stream,
-    cells: &[CellData],
-    eval: &Evaluator<'_>,
-    counts: &mut [u32],
-    buf: &mut [f64],
-    st: &mut CellState,
-) {
+/// One stratified resample: per cell, n_c draws of canonical indices j = bounded(n_c)
+/// (METHODS §10.3), summed directly for the mean and SS and counted at j's sorted
+/// position for the trimmed summaries ([`CellData::trimmed_from_counts`]); summaries
+/// into `st`. Allocates nothing.
+fn draw(stream: &mut Stream, cells: &[CellData], eval: &Evaluator<'_>, counts: &mut [u32], st: &mut CellState) {
     for (c, cd) in cells.iter().enumerate() {
         let n = cd.n();
         let counts = &mut counts[..n];
-        counts.fill(0);
-        for _ in 0..n {
-            let j = stream.bounded(n as u64) as usize;
-            counts[cd.rank[j] as usize] += 1;
-        }
         let (mut s, mut q) = (0.0, 0.0);
-        let mut pos = 0;
-        for (&x, &m) in cd.sorted.iter().zip(counts.iter()) {
-            if m == 0 {
-                continue;
+        if eval.need_trimmed {
+            counts.fill(0);
+            for _ in 0..n {
+                let j = stream.bounded(n as u64) as usize;
+                counts[cd.rank[j] as usize] += 1;
+                let x = cd.canonical[j];
+                s += x;
+                q += x * x;
             }
-            let mf = m as f64;
-            s += mf * x;
-            q += mf * x * x;
-            if eval.need_trimmed {
-                buf[pos..pos + m as usize].fill(x);
-                pos += m as usize;
+        } else {
+            for _ in 0..n {
+                let x = cd.canonical[stream.bounded(n as u64) as usize];
+                s += x;
+                q += x * x;
             }
         }
         let nf = n as f64;
         st.mean[c] = cd.centre + s / nf;
         st.ss[c] = (q - s * s / nf).max(0.0);
         if eval.need_trimmed {
-            let mut t = TrimmedCell::from_sorted(&buf[..n], eval.gamma);
-            t.trimmed_mean += cd.centre;
-            st.trimmed[c] = t;
+            st.trimmed[c] = cd.trimmed_from_counts(counts, s, q, eval.gamma);
         }
     }
 }
@@ -922,37 +974,43 @@ mod tests {
         let forms = SsForms::new(&d.layout, &fit.n, SsType::Three).unwrap();
         let cds: Vec<CellData> = (0..6).map(|c| CellData::new(d.cell_values(c))).collect();
         let specs = catalogue(&d).0;
-        let eval = Evaluator {
-            specs: &specs,
-            forms: &forms,
-            wald: Vec::new(),
-            rows: vec![None; 3],
-            n: fit.n.clone(),
-            n_total: fit.n_total,
-            grand: fit.grand_mean,
-            term_df: vec![1, 2, 2],
-            gamma: 0.2,
-            need_trimmed: true,
-            need_ss: false,
-        };
-        let key = StreamKey { purpose: Purpose::Bootstrap, term: 0, chunk: 3, aux: 0 };
-        let mut a = Stream::new(5, key);
-        let mut b = Stream::new(5, key);
-        let mut st = observed_state(&cds, 0.2);
-        let (mut counts, mut buf) = (vec![0u32; 8], vec![0.0; 8]);
-        for _ in 0..20 {
-            draw(&mut a, &cds, &eval, &mut counts, &mut buf, &mut st);
-            for c in 0..6 {
-                let v = d.cell_values(c);
-                let mut s: Vec<f64> = (0..v.len()).map(|_| v[b.bounded(v.len() as u64) as usize]).collect();
-                let mean = s.iter().sum::<f64>() / s.len() as f64;
-                s.sort_by(f64::total_cmp);
-                let t = TrimmedCell::from_sorted(&s, 0.2);
-                assert!(close(st.mean[c], mean, 1e-13));
-                assert!(close(st.trimmed[c].trimmed_mean, t.trimmed_mean, 1e-13));
-                assert!(close(st.trimmed[c].winsorized_variance, t.winsorized_variance, 1e-11));
-                let ss: f64 = s.iter().map(|x| (x - mean) * (x - mean)).sum();
-                assert!((st.ss[c] - ss).abs() < 1e-10);
+        for gamma in [0.0, 0.1, 0.2, 0.3, 0.45] {
+            let eval = Evaluator {
+                specs: &specs,
+                forms: &forms,
+                wald: Vec::new(),
+                rows: vec![None; 3],
+                n: fit.n.clone(),
+                n_total: fit.n_total,
+                grand: fit.grand_mean,
+                term_df: vec![1, 2, 2],
+                gamma,
+                need_trimmed: true,
+                need_ss: false,
+            };
+            let key = StreamKey { purpose: Purpose::Bootstrap, term: 0, chunk: 3, aux: 0 };
+            let mut a = Stream::new(5, key);
+            let mut b = Stream::new(5, key);
+            let mut st = observed_state(&cds, gamma);
+            let mut counts = vec![0u32; 8];
+            for _ in 0..50 {
+                draw(&mut a, &cds, &eval, &mut counts, &mut st);
+                for c in 0..6 {
+                    let v = d.cell_values(c);
+                    let mut s: Vec<f64> = (0..v.len()).map(|_| v[b.bounded(v.len() as u64) as usize]).collect();
+                    let mean = s.iter().sum::<f64>() / s.len() as f64;
+                    s.sort_by(f64::total_cmp);
+                    let t = TrimmedCell::from_sorted(&s, gamma);
+                    let got = st.trimmed[c];
+                    assert!(close(st.mean[c], mean, 1e-13));
+                    assert!(close(got.trimmed_mean, t.trimmed_mean, 1e-13), "γ {gamma}");
+                    assert!(close(got.winsorized_variance, t.winsorized_variance, 1e-11), "γ {gamma}");
+                    assert!(close(got.d, t.d, 1e-11));
+                    assert_eq!((got.g, got.h), (t.g, t.h));
+                    assert_eq!(got.winsorized_variance == 0.0, t.winsorized_variance == 0.0);
+                    let ss: f64 = s.iter().map(|x| (x - mean) * (x - mean)).sum();
+                    assert!((st.ss[c] - ss).abs() < 1e-10);
+                }
             }
         }
     }

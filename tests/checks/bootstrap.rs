@@ -474,3 +474,30 @@ fn wild_type_i_error_large() {
     let sd9_neg = [3.0, 2.0, 1.0, 3.0, 2.0, 1.0, 3.0, 2.0, 1.0];
     report_and_check("3x3 negative pairing", &null_rejections(5, &[3, 3], &n9, &sd9_neg, reps, 499), reps);
 }
+
+#[test]
+fn command_line_selects_the_weights_level_and_resamples() {
+    // Behaviour of the real binary: typed flags, reported in `settings`; bad values exit 2.
+    let bin = env!("CARGO_BIN_EXE_quorum");
+    let csv = repo_path("tests/data/warpbreaks.csv");
+    let csv = csv.to_str().unwrap();
+    let common = ["analyze", csv, "-y", "breaks", "-f", "wool,tension", "--format", "json", "--quiet"];
+    let out = std::process::Command::new(bin)
+        .args(common)
+        .args(["--engines", "bootstrap", "--wild-weights", "mammen", "--resamples", "499", "--ci-level", "0.9"])
+        .output()
+        .unwrap();
+    assert_eq!(out.status.code(), Some(0), "{}", String::from_utf8_lossy(&out.stderr));
+    let v: Value = serde_json::from_slice(&out.stdout).unwrap();
+    let e = &v["engines"][0];
+    assert_eq!(e["settings"]["wild_weights"], "mammen");
+    assert_eq!(e["settings"]["resamples"], 499);
+    assert_eq!(e["terms"][0]["mc"]["scheme"], "wild-bootstrap-mammen");
+    assert!(e["terms"][0]["mc"]["resamples"].as_u64().unwrap() >= 499);
+    assert_eq!(e["terms"][0]["effect"]["ci_level"], 0.9);
+    assert_eq!(e["details"]["bootstrap"]["ci_level"], 0.9);
+    for bad in [["--wild-weights", "normal"], ["--resamples", "0"]] {
+        let out = std::process::Command::new(bin).args(common).args(bad).output().unwrap();
+        assert_eq!(out.status.code(), Some(2), "{bad:?}");
+    }
+}

@@ -41,6 +41,10 @@ use rayon::prelude::*;
 /// the list (interaction contrasts first) beyond it, and the omission is reported.
 pub const MAX_STATISTICS: usize = 2000;
 
+/// At most this many resampled values are stored (estimates × resamples; 256 MB), so
+/// large `--resamples` shrink the list of estimates rather than exhaust memory.
+pub const MAX_STORED_DRAWS: u64 = 1 << 25;
+
 /// Which cell summary a linear statistic combines.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 enum Basis {
@@ -96,7 +100,7 @@ impl Spec {
 }
 
 /// The list of estimates of a design, in report order, with what had to be left out.
-fn catalogue(design: &Design) -> (Vec<Spec>, Vec<String>) {
+fn catalogue(design: &Design, resamples: u64) -> (Vec<Spec>, Vec<String>) {
     let layout = &design.layout;
     let n_cells = design.n_cells();
     let levels: Vec<Vec<usize>> = (0..n_cells).map(|c| layout.cell_levels(c)).collect();
@@ -219,20 +223,32 @@ fn catalogue(design: &Design) -> (Vec<Spec>, Vec<String>) {
             });
         }
     }
-    // Priority when trimming to MAX_STATISTICS: effect sizes, cells, marginal means,
-    // differences, interaction contrasts (dropped first).
-    let mut budget = MAX_STATISTICS.saturating_sub(effects.len());
+    // Priority when trimming to the limit: effect sizes, cells, marginal means,
+    // differences, interaction contrasts (dropped first). Report order puts effect
+    // sizes last.
+    let limit = MAX_STATISTICS.min((MAX_STORED_DRAWS / resamples.max(1)) as usize);
+    let why = |name: &str, count: usize| {
+        format!(
+            "{name}: {count} more intervals would exceed the limit of {limit} estimates for {resamples} resamples (at most {MAX_STATISTICS} estimates and {MAX_STORED_DRAWS} stored resampled values)"
+        )
+    };
     let mut omitted = Vec::new();
+    let mut budget = limit;
+    let effects = if effects.len() <= budget {
+        budget -= effects.len();
+        effects
+    } else {
+        omitted.push(why("effect sizes", effects.len()));
+        budget = 0;
+        Vec::new()
+    };
     let mut kept: Vec<Spec> = Vec::new();
     for (name, specs) in families {
         if specs.len() <= budget {
             budget -= specs.len();
             kept.extend(specs);
         } else if !specs.is_empty() {
-            omitted.push(format!(
-                "{name}: {} intervals would exceed the limit of {MAX_STATISTICS} per analysis",
-                specs.len()
-            ));
+            omitted.push(why(name, specs.len()));
             budget = 0;
         }
     }
@@ -528,7 +544,7 @@ pub fn replicate(
 ) -> Result<Replicates> {
     let n_cells = design.n_cells();
     let (specs, mut omitted) = if n_cells <= INTERVAL_CELL_LIMIT {
-        catalogue(design)
+        catalogue(design, resamples)
     } else {
         (
             Vec::new(),
@@ -624,12 +640,13 @@ fn resample_all(eval: &Evaluator<'_>, cells: &[CellData], resamples: u64, seed: 
 fn draw(stream: &mut Stream, cells: &[CellData], eval: &Evaluator<'_>, counts: &mut [u32], st: &mut CellState) {
     for (c, cd) in cells.iter().enumerate() {
         let n = cd.n();
+        let bound = n as u64;
         let counts = &mut counts[..n];
         let (mut s, mut q) = (0.0, 0.0);
         if eval.need_trimmed {
             counts.fill(0);
             for _ in 0..n {
-                let j = stream.bounded(n as u64) as usize;
+                let j = stream.bounded(bound) as usize;
                 counts[cd.rank[j] as usize] += 1;
                 let x = cd.canonical[j];
                 s += x;
@@ -637,7 +654,7 @@ fn draw(stream: &mut Stream, cells: &[CellData], eval: &Evaluator<'_>, counts: &
             }
         } else {
             for _ in 0..n {
-                let x = cd.canonical[stream.bounded(n as u64) as usize];
+                let x = cd.canonical[stream.bounded(bound) as usize];
                 s += x;
                 q += x * x;
             }
@@ -973,7 +990,7 @@ mod tests {
         let fit = Fit::new(&d);
         let forms = SsForms::new(&d.layout, &fit.n, SsType::Three).unwrap();
         let cds: Vec<CellData> = (0..6).map(|c| CellData::new(d.cell_values(c))).collect();
-        let specs = catalogue(&d).0;
+        let specs = catalogue(&d, 1999).0;
         for gamma in [0.0, 0.1, 0.2, 0.3, 0.45] {
             let eval = Evaluator {
                 specs: &specs,
@@ -1054,8 +1071,19 @@ mod tests {
     }
 
     #[test]
+    fn many_resamples_drop_families_and_say_so() {
+        // 36 estimates; with 2²⁵/10⁶ = 33 places the interaction contrasts (3) go first.
+        let (specs, omitted) = catalogue(&design(&cells()), 1_000_000);
+        assert_eq!(specs.len(), 33);
+        assert!(omitted.len() == 1 && omitted[0].starts_with("interaction contrasts: 3 more"), "{omitted:?}");
+        assert!(specs.iter().any(|s| s.family == IntervalFamily::RobustD));
+        let (specs, omitted) = catalogue(&design(&cells()), 1 << 40);
+        assert!(specs.is_empty() && omitted[0].starts_with("effect sizes"), "{omitted:?}");
+    }
+
+    #[test]
     fn catalogue_of_a_2x3_design_lists_every_family() {
-        let (specs, omitted) = catalogue(&design(&cells()));
+        let (specs, omitted) = catalogue(&design(&cells()), 1999);
         assert!(omitted.is_empty());
         let count = |f: IntervalFamily| specs.iter().filter(|s| s.family == f).count();
         assert_eq!(count(IntervalFamily::CellMean), 6);

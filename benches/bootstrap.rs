@@ -49,6 +49,17 @@ fn bench(c: &mut Criterion) {
             intervals::summarise(&rep, 0.95).len()
         })
     });
+    // The same work on one thread: the CPU time it takes, for comparison with scipy's
+    // single-threaded numpy.
+    let one = rayon::ThreadPoolBuilder::new().num_threads(1).build().unwrap();
+    g.bench_function("all_intervals_1_thread", |b| {
+        b.iter(|| {
+            one.install(|| {
+                let rep = intervals::replicate(black_box(&d), &fit, &forms, 0.2, 1999, DEFAULT_SEED).unwrap();
+                intervals::summarise(&rep, 0.95).len()
+            })
+        })
+    });
     // No extension near α: exactly B = 1999 wild resamples per term.
     let settings = Settings { resamples: 1999, max_permutations: 1999, quiet: true, ..Settings::default() };
     g.bench_function("engine_test_and_intervals", |b| {

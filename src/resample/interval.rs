@@ -20,8 +20,10 @@
 //! α₁(1 − α₁) (g = dα₁/dp₀). The density f is estimated without smoothing from the
 //! order statistics ±√(Bp(1 − p)) positions either side of the end (the binomial
 //! standard deviation of the rank, as in distribution-free quantile intervals; Hall &
-//! Sheather 1988, JRSS-B 50:381–391 [M]). The test module checks these SEs against the
-//! spread of the ends over repeated seeds.
+//! Sheather 1988, JRSS-B 50:381–391, cited from memory). The checks compare these SEs with the
+//! spread of the ends over repeated seeds. An SE of 0 means the resampled values are tied
+//! all around the end (a discrete bootstrap distribution, as in a cell of three): the end
+//! is then the same atom for almost any B.
 
 use crate::dist;
 use crate::summary::quantile_type7;

@@ -501,3 +501,18 @@ fn command_line_selects_the_weights_level_and_resamples() {
         assert_eq!(out.status.code(), Some(2), "{bad:?}");
     }
 }
+
+#[test]
+fn very_large_interactions_are_named_not_applicable_and_others_still_run() {
+    // A 20×30 design (invented values, n = 2 per cell): the A:B term has q = 551, whose
+    // wild bootstrap would form and factor a 551×551 covariance per resample.
+    let levels = |p: &str, a: usize| (0..a).map(|i| format!("{p}{i:02}")).collect::<Vec<_>>();
+    let factors = vec![factor("A", &levels("a", 20)), factor("B", &levels("b", 30))];
+    let cells: Vec<Vec<f64>> = (0..600).map(|c| vec![(c % 7) as f64, (c % 11) as f64 + 0.5]).collect();
+    let design = Design::from_cells("y", factors, &cells).unwrap();
+    let out = run_engine(&design, &Settings { resamples: 999, ..Settings::default() });
+    assert!(out.terms[0].p.is_some() && out.terms[1].p.is_some());
+    let why = out.terms[2].not_applicable.as_deref().unwrap();
+    assert!(why.contains("551 df in 600 cells"), "{why}");
+    assert!(details(&out).omitted[0].contains("600 cells"));
+}

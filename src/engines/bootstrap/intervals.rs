@@ -585,7 +585,8 @@ pub fn replicate(
     let mut estimates = vec![0.0; specs.len()];
     eval.evaluate(&observed, &mut eval.scratch(), &mut estimates);
     let acceleration = jackknife(&eval, &cells, &observed, &estimates)?;
-    let draws = resample_all(&eval, &cells, resamples, seed);
+    // Nothing to resample for when every family was left out.
+    let draws = if specs.is_empty() { Vec::new() } else { resample_all(&eval, &cells, resamples, seed) };
     let df_e = fit.df_error as f64;
     let null_scale = layout.terms.iter().map(|t| t.df as f64 / (t.df as f64 + df_e)).collect();
     Ok(Replicates { specs, estimates, draws, acceleration, omitted, location: design.location(), null_scale })

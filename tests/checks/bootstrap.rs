@@ -516,3 +516,47 @@ fn very_large_interactions_are_named_not_applicable_and_others_still_run() {
     assert!(why.contains("551 df in 600 cells"), "{why}");
     assert!(details(&out).omitted[0].contains("600 cells"));
 }
+
+#[test]
+fn reported_monte_carlo_errors_match_the_spread_over_seeds() {
+    // Simulation (self-consistency, no outside source): for estimates whose BCa ends
+    // carry the z0 term of the Monte Carlo SE (a cell mean, a level difference, partial
+    // η²), the mean reported SE over 60 seeds against the sd of the ends over those
+    // seeds. The sd of 60 draws has a relative SE of about 9%, so 3 SEs allow 1/1.4..1.4.
+    let design = skewed_design();
+    let fit = Fit::new(&design);
+    let forms = SsForms::new(&design.layout, &fit.n, quorum::config::SsType::Three).unwrap();
+    let wanted = [("cell_mean", "A=a2, B=b1"), ("level_difference", "B: b1 − b3"), ("partial_eta_squared", "B")];
+    let seeds = 60u64;
+    let mut ends = vec![[Vec::new(), Vec::new(), Vec::new(), Vec::new()]; wanted.len()];
+    let mut ses = vec![[0.0f64; 4]; wanted.len()];
+    for seed in 0..seeds {
+        let rep = intervals::replicate(&design, &fit, &forms, 0.2, 1999, 500 + seed).unwrap();
+        let rows = intervals::summarise(&rep, 0.95);
+        for (w, (fam, label)) in wanted.iter().enumerate() {
+            let r = row(&rows, fam, label);
+            let (p, b) = (r.percentile.unwrap(), r.bca.unwrap());
+            for (k, (v, se)) in
+                [(p.low, p.low_mc_se), (p.high, p.high_mc_se), (b.low, b.low_mc_se), (b.high, b.high_mc_se)]
+                    .into_iter()
+                    .enumerate()
+            {
+                ends[w][k].push(v.unwrap());
+                ses[w][k] += se.unwrap() / seeds as f64;
+            }
+        }
+    }
+    for (w, (fam, label)) in wanted.iter().enumerate() {
+        for (k, name) in ["percentile low", "percentile high", "BCa low", "BCa high"].iter().enumerate() {
+            let v = &ends[w][k];
+            let m = v.iter().sum::<f64>() / v.len() as f64;
+            let sd = (v.iter().map(|x| (x - m) * (x - m)).sum::<f64>() / (v.len() - 1) as f64).sqrt();
+            let ratio = ses[w][k] / sd;
+            println!(
+                "{fam} {label} {name}: mean reported MC SE {:.3e}, sd over seeds {sd:.3e}, ratio {ratio:.2}",
+                ses[w][k]
+            );
+            assert!((1.0 / MC_SE_RATIO..=MC_SE_RATIO).contains(&ratio), "{fam} {label} {name}: ratio {ratio}");
+        }
+    }
+}

@@ -6,7 +6,7 @@
 use clap::{Args, Parser, Subcommand, ValueEnum};
 use quorum::config::{
     Config, DataSpec, Delimiter, Format, HcType, Job, OutputSpec, PermutationScheme, Settings, Source, SsType,
-    TailApproximation, WjReference,
+    TailApproximation, WildWeights, WjReference,
 };
 use quorum::error::{Error, Result};
 use std::path::PathBuf;
@@ -208,6 +208,9 @@ pub struct EngineArgs {
     /// Multiplicity adjustment within each follow-up family.
     #[arg(long, value_enum, default_value_t = AdjustArg::Holm)]
     pub adjust: AdjustArg,
+    /// Weights of the bootstrap engine's wild bootstrap test.
+    #[arg(long, value_enum, default_value_t = WildWeightsArg::Rademacher)]
+    pub wild_weights: WildWeightsArg,
 }
 
 /// Multiplicity adjustments of follow-up families.
@@ -234,6 +237,24 @@ impl From<AdjustArg> for quorum::followup::Adjust {
             AdjustArg::Bh => Adjust::Bh,
             AdjustArg::Bonferroni => Adjust::Bonferroni,
             AdjustArg::None => Adjust::None,
+        }
+    }
+}
+
+/// Wild-bootstrap weight distributions.
+#[derive(Debug, Clone, Copy, ValueEnum)]
+pub enum WildWeightsArg {
+    /// ±1 with probability ½ each.
+    Rademacher,
+    /// Mammen's two-point weights (third moment 1).
+    Mammen,
+}
+
+impl From<WildWeightsArg> for WildWeights {
+    fn from(w: WildWeightsArg) -> WildWeights {
+        match w {
+            WildWeightsArg::Rademacher => WildWeights::Rademacher,
+            WildWeightsArg::Mammen => WildWeights::Mammen,
         }
     }
 }
@@ -495,6 +516,7 @@ pub(crate) fn settings(e: &EngineArgs) -> Result<Settings> {
         },
         calibration: None,
         adjust: e.adjust.into(),
+        wild_weights: e.wild_weights.into(),
     })
 }
 

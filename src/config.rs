@@ -178,6 +178,27 @@ impl HcType {
     pub const ALL: [HcType; 5] = [HcType::Hc0, HcType::Hc1, HcType::Hc2, HcType::Hc3, HcType::Hc4];
 }
 
+/// Weights of the `bootstrap` engine's wild bootstrap (METHODS §8.6): each restricted
+/// residual is multiplied by an independent draw v with E v = 0 and E v² = 1.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum WildWeights {
+    /// v = ±1 with probability ½ each (Davidson & Flachaire 2008; the default).
+    Rademacher,
+    /// Mammen's (1993) two-point weights: v = −(√5 − 1)/2 with probability
+    /// (√5 + 1)/(2√5), else (√5 + 1)/2, so that also E v³ = 1.
+    Mammen,
+}
+
+impl WildWeights {
+    /// The id used on the command line and in `settings` (`rademacher`, `mammen`).
+    pub fn id(self) -> &'static str {
+        match self {
+            WildWeights::Rademacher => "rademacher",
+            WildWeights::Mammen => "mammen",
+        }
+    }
+}
+
 /// Settings shared by the engines.
 #[derive(Debug, Clone)]
 pub struct Settings {
@@ -217,6 +238,8 @@ pub struct Settings {
     pub calibration: Option<u64>,
     /// Multiplicity adjustment within each follow-up family (default Holm).
     pub adjust: crate::followup::Adjust,
+    /// Weights of the `bootstrap` engine's wild bootstrap (default Rademacher).
+    pub wild_weights: WildWeights,
 }
 
 /// How the `permutation` engine builds its permuted data (METHODS §3.1).
@@ -279,6 +302,7 @@ impl Default for Settings {
             tail_approximation: TailApproximation::Off,
             calibration: None,
             adjust: crate::followup::Adjust::Holm,
+            wild_weights: WildWeights::Rademacher,
         }
     }
 }

@@ -478,6 +478,9 @@ pub enum Details {
         /// One entry per tested term, canonical order.
         terms: Vec<NullDistribution>,
     },
+    /// The `bootstrap` engine's wild-bootstrap counts and its stratified bootstrap
+    /// intervals (descriptive; never a decision rule).
+    Bootstrap(BootstrapDetails),
 }
 
 /// A term's permutation distribution, thinned to at most [`NULL_QUANTILE_POINTS`]
@@ -858,4 +861,112 @@ pub struct RankAtsDetails {
     pub relative_effects: Vec<RelativeEffect>,
     /// Per-term scale and degrees of freedom, canonical order.
     pub terms: Vec<AtsTerm>,
+}
+
+/// What a bootstrap interval is for (the family of estimates it belongs to).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "snake_case")]
+pub enum IntervalFamily {
+    /// Mean of one cell (outcome units).
+    CellMean,
+    /// Trimmed mean of one cell (outcome units; trimming as `trim`).
+    CellTrimmedMean,
+    /// Unweighted marginal mean of one level: the plain average of its cell means.
+    MarginalMeanUnweighted,
+    /// Weighted marginal mean of one level: the mean of its observations.
+    MarginalMeanWeighted,
+    /// Difference of two levels' unweighted marginal means (first minus second).
+    LevelDifference,
+    /// Interaction contrast of a 2×2 sub-table of two factors (difference of differences
+    /// of cell means, unweighted over the other factors).
+    InteractionContrast,
+    /// Partial η² of a term (Type III).
+    PartialEtaSquared,
+    /// Partial ω² of a term (Type III).
+    PartialOmegaSquared,
+    /// Algina–Keselman–Penfield robust d of a 1-df term (first level minus last).
+    RobustD,
+}
+
+/// Interval ends with the Monte Carlo standard error of each.
+#[derive(Debug, Clone, Copy, Serialize)]
+pub struct IntervalEnds {
+    /// Lower end.
+    pub low: Option<f64>,
+    /// Upper end.
+    pub high: Option<f64>,
+    /// Monte Carlo standard error of the lower end (resampling noise at this B).
+    pub low_mc_se: Option<f64>,
+    /// Monte Carlo standard error of the upper end.
+    pub high_mc_se: Option<f64>,
+}
+
+/// A stratified bootstrap interval of one estimate (METHODS §8).
+#[derive(Debug, Clone, Serialize)]
+pub struct BootstrapInterval {
+    /// What kind of estimate.
+    pub family: IntervalFamily,
+    /// The factor (marginal means, level differences) or term (contrasts, effect sizes)
+    /// it belongs to; null for cell estimates.
+    pub term: Option<String>,
+    /// The estimate named for people, e.g. `A=a1, B=b2` or `A: a1 − a2`.
+    pub label: String,
+    /// The estimate on the data.
+    pub estimate: Option<f64>,
+    /// Bootstrap bias, mean of θ* minus the estimate.
+    pub bias: Option<f64>,
+    /// Bootstrap standard error, sd of θ* (n − 1 denominator).
+    pub se: Option<f64>,
+    /// Percentile interval.
+    pub percentile: Option<IntervalEnds>,
+    /// BCa interval; null where BCa is undefined (see `bca_problem`).
+    pub bca: Option<IntervalEnds>,
+    /// Why BCa is undefined, when it is.
+    pub bca_problem: Option<String>,
+    /// BCa bias correction z0.
+    pub z0: Option<f64>,
+    /// BCa acceleration (stratified jackknife).
+    pub acceleration: Option<f64>,
+    /// Resamples whose statistic exists (the rest are counted in `flags`).
+    pub resamples_used: u64,
+    /// Stable codes: `degenerate`, `bca-undefined`, `undefined-resamples`, `near-bound`.
+    pub flags: Vec<String>,
+}
+
+/// The wild-bootstrap count of one term.
+#[derive(Debug, Clone, Serialize)]
+pub struct WildTermRow {
+    /// Term id.
+    pub term: String,
+    /// Observed HC3 Wald F.
+    #[serde(rename = "F")]
+    pub f: Option<f64>,
+    /// Resamples drawn for this term (more than `--resamples` when extended near α).
+    pub resamples: u64,
+    /// Resamples with F* ≥ F(1 − 1e-10).
+    pub exceedances: u64,
+    /// Resamples whose F* was undefined (singular covariance), counted as exceedances.
+    pub undefined: u64,
+}
+
+/// Details of the `bootstrap` engine.
+#[derive(Debug, Clone, Serialize)]
+pub struct BootstrapDetails {
+    /// Wild-bootstrap weights, `rademacher` or `mammen`.
+    pub wild_weights: String,
+    /// Per-term wild-bootstrap counts (empty when the test could not run).
+    pub wild: Vec<WildTermRow>,
+    /// Stratified resamples behind the intervals.
+    pub resamples: u64,
+    /// Confidence level of the intervals.
+    pub ci_level: f64,
+    /// Trimming proportion of the trimmed means and of robust d.
+    pub trim: f64,
+    /// How the Monte Carlo error of the interval ends is computed.
+    pub mc_error_method: String,
+    /// Intervals, in the order cells, marginal means, level differences, interaction
+    /// contrasts, effect sizes.
+    pub intervals: Vec<BootstrapInterval>,
+    /// Families left out and why (size limits).
+    pub omitted: Vec<String>,
 }

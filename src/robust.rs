@@ -317,12 +317,14 @@ pub fn akp_pair(cells: &[TrimmedCell], first: usize, second: usize) -> Result<f6
 /// a toolkit extension of Algina, Keselman & Penfield 2005): ℓ rescaled so that its
 /// positive entries sum to 1 (a difference of unweighted marginal trimmed means),
 /// ψ̂ = ℓ'μ̂_t, S_w² = Σ_c (n_c − 1)s²_w,c/(N − C), d_R = c_γ ψ̂/S_w. The sign follows
-/// ℓ (for a term's H_a = [I | −1], the first level minus the last).
+/// ℓ (for a term's H_a = [I | −1], the first level minus the last). A cell with zero
+/// winsorized variance is allowed (it adds 0 to the pooled variance, as the formula
+/// says); bootstrap resamples of small cells produce such cells often.
 ///
 /// # Errors
-/// [`ContrastProblem::Cell`] naming a cell with h < 2 or zero winsorized variance;
-/// [`ContrastProblem::Singular`] when ℓ has no positive entry or its length differs
-/// from the number of cells.
+/// [`ContrastProblem::Cell`] naming a cell with h < 2, or the first cell with zero
+/// winsorized variance when every cell has it (S_w = 0); [`ContrastProblem::Singular`]
+/// when ℓ has no positive entry or its length differs from the number of cells.
 pub fn akp_contrast(l: &[f64], cells: &[TrimmedCell]) -> Result<f64, ContrastProblem> {
     if l.len() != cells.len() {
         return Err(ContrastProblem::Singular);
@@ -330,9 +332,17 @@ pub fn akp_contrast(l: &[f64], cells: &[TrimmedCell]) -> Result<f64, ContrastPro
     let mut pooled = 0.0;
     let mut df = 0usize;
     for (c, cell) in cells.iter().enumerate() {
-        cell.check().map_err(|defect| ContrastProblem::Cell { cell: c, defect })?;
+        if cell.h < 2 || cell.winsorized_variance.is_nan() {
+            return Err(ContrastProblem::Cell {
+                cell: c,
+                defect: CellDefect::TooFewAfterTrimming { n: cell.n, g: cell.g },
+            });
+        }
         pooled += (cell.n - 1) as f64 * cell.winsorized_variance;
         df += cell.n - 1;
+    }
+    if pooled.is_nan() || pooled <= 0.0 {
+        return Err(ContrastProblem::Cell { cell: 0, defect: CellDefect::ZeroWinsorizedVariance });
     }
     let positive: f64 = l.iter().filter(|&&x| x > 0.0).sum();
     if positive.is_nan() || positive <= 0.0 || df == 0 {

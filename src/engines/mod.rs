@@ -9,6 +9,7 @@
 //! [`Engine`], and add one line to [`registry`].
 
 pub mod art;
+pub mod bootstrap;
 pub mod classical;
 pub mod hc;
 pub mod permutation;
@@ -59,6 +60,7 @@ pub fn registry() -> Vec<Box<dyn Engine>> {
         Box::new(studentized_permutation::StudentizedPermutation),
         Box::new(art::Art),
         Box::new(rank_ats::RankAts),
+        Box::new(bootstrap::Bootstrap),
     ]
 }
 

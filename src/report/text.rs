@@ -4,7 +4,8 @@
 use super::table::{num, p_value, Align, Table};
 use super::Render;
 use crate::results::{
-    Analysis, ArtDetails, Decision, Details, EngineResult, Interval, RankAtsDetails, Verdict, WelchJamesRow,
+    Analysis, ArtDetails, BootstrapDetails, Decision, Details, EngineResult, Interval, IntervalFamily, RankAtsDetails,
+    Verdict, WelchJamesRow,
 };
 use std::io::{self, Write};
 
@@ -186,6 +187,10 @@ fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
             generic_tests(e, out)?;
             rank_effects(e, out)?;
             ats_details(d, out)?;
+        }
+        Some(Details::Bootstrap(d)) => {
+            generic_tests(e, out)?;
+            bootstrap_intervals(d, out)?;
         }
         _ => generic_tests(e, out)?,
     }
@@ -441,3 +446,113 @@ fn trimmed_tests(
     }
     writeln!(out, "{}", t.render(2))
 }
+
+/// The bootstrap engine's intervals, one row per estimate: BCa (percentile where BCa is
+/// undefined, marked `*`), the larger Monte Carlo SE of the two ends, and the percentile
+/// interval; at most [`INTERVAL_ROWS_PER_FAMILY`] rows per family (the JSON has all).
+fn bootstrap_intervals(d: &BootstrapDetails, out: &mut dyn Write) -> io::Result<()> {
+    if d.intervals.is_empty() {
+        for o in &d.omitted {
+            writeln!(out, "  bootstrap intervals omitted: {o}")?;
+        }
+        return Ok(());
+    }
+    let level = (d.ci_level * 100.0 * 1e6).round() / 1e6;
+    writeln!(
+        out,
+        "  Bootstrap intervals ({} stratified resamples within cells, {level}% BCa; * percentile where BCa is undefined; ±MC: larger Monte Carlo SE of the two ends; descriptive, not tests)",
+        d.resamples
+    )?;
+    let mut t = Table::new(&[
+        ("estimate", Align::Left),
+        ("of", Align::Left),
+        ("value", Align::Right),
+        ("interval", Align::Left),
+        ("±MC", Align::Right),
+        ("percentile", Align::Left),
+        ("flags", Align::Left),
+    ]);
+    let family_name = |f: IntervalFamily| match f {
+        IntervalFamily::CellMean => "cell mean",
+        IntervalFamily::CellTrimmedMean => "cell trimmed mean",
+        IntervalFamily::MarginalMeanUnweighted => "marginal mean, unweighted",
+        IntervalFamily::MarginalMeanWeighted => "marginal mean, weighted",
+        IntervalFamily::LevelDifference => "level difference",
+        IntervalFamily::InteractionContrast => "interaction contrast",
+        IntervalFamily::PartialEtaSquared => "partial η²",
+        IntervalFamily::PartialOmegaSquared => "partial ω²",
+        IntervalFamily::RobustD => "robust d",
+    };
+    let pair = |lo: Option<f64>, hi: Option<f64>| match (lo, hi) {
+        (Some(l), Some(h)) => format!("[{}, {}]", num(Some(l), 4), num(Some(h), 4)),
+        _ => "—".to_string(),
+    };
+    let mut last: Option<IntervalFamily> = None;
+    let mut shown = 0usize;
+    let mut hidden = 0usize;
+    for r in &d.intervals {
+        if last != Some(r.family) {
+            if hidden > 0 {
+                t.row(vec![
+                    String::new(),
+                    format!("… {hidden} more (see the JSON)"),
+                    String::new(),
+                    String::new(),
+                    String::new(),
+                    String::new(),
+                    String::new(),
+                ]);
+            }
+            last = Some(r.family);
+            shown = 0;
+            hidden = 0;
+        }
+        if shown >= INTERVAL_ROWS_PER_FAMILY {
+            hidden += 1;
+            continue;
+        }
+        let (ends, mark) = match (&r.bca, &r.percentile) {
+            (Some(b), _) => (Some(b), ""),
+            (None, Some(p)) => (Some(p), "*"),
+            (None, None) => (None, ""),
+        };
+        let interval = ends.map(|e| format!("{}{mark}", pair(e.low, e.high))).unwrap_or_else(|| "—".into());
+        let mc = ends.and_then(|e| match (e.low_mc_se, e.high_mc_se) {
+            (Some(a), Some(b)) => Some(a.max(b)),
+            _ => None,
+        });
+        let of = match (r.family, &r.term) {
+            (IntervalFamily::InteractionContrast, Some(term)) => format!("{term} {}", r.label),
+            _ => r.label.clone(),
+        };
+        t.row(vec![
+            if shown == 0 { family_name(r.family).to_string() } else { String::new() },
+            of,
+            num(r.estimate, 4),
+            interval,
+            num(mc, 2),
+            r.percentile.map(|p| pair(p.low, p.high)).unwrap_or_else(|| "—".into()),
+            r.flags.join(" "),
+        ]);
+        shown += 1;
+    }
+    if hidden > 0 {
+        t.row(vec![
+            String::new(),
+            format!("… {hidden} more (see the JSON)"),
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
+            String::new(),
+        ]);
+    }
+    writeln!(out, "{}", t.render(2))?;
+    for o in &d.omitted {
+        writeln!(out, "  bootstrap intervals omitted: {o}")?;
+    }
+    Ok(())
+}
+
+/// Rows per interval family in the text report.
+const INTERVAL_ROWS_PER_FAMILY: usize = 24;

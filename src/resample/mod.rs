@@ -6,6 +6,7 @@
 //! gives bit-identical results on 1 or 16 threads. This module knows no engine's
 //! statistic: engines pass closures.
 
+pub mod interval;
 pub mod mc;
 pub mod permute;
 pub mod progress;

@@ -8,6 +8,7 @@ mod followup;
 mod support;
 
 mod bad_inputs;
+mod bootstrap;
 mod calibration;
 mod classical;
 mod cli;

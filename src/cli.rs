@@ -67,6 +67,9 @@ pub struct DemoArgs {
     /// No progress bars.
     #[arg(long)]
     pub quiet: bool,
+    /// Text output: add every engine's details below the summary sections.
+    #[arg(long)]
+    pub details: bool,
 }
 
 /// Which columns play which role.
@@ -148,6 +151,10 @@ pub struct EngineArgs {
     /// Points the sensitivity variant removes: far (beyond 3 × IQR), mad (calibrated MAD–median rule), none.
     #[arg(long, value_enum, default_value_t = DropRuleArg::Far)]
     pub drop_rule: DropRuleArg,
+    /// Fix the primary engine in advance (preregistration) instead of letting the
+    /// pre-specified rules choose it from the calibrated diagnostics.
+    #[arg(long, value_name = "ENGINE")]
+    pub primary: Option<String>,
 }
 
 /// Reference distributions of the trimmed-means test.
@@ -198,12 +205,15 @@ pub struct OutputArgs {
     /// Output format on standard output.
     #[arg(long, value_enum, default_value_t = FormatArg::Text)]
     pub format: FormatArg,
-    /// Also write a report folder (results.json, report.txt).
+    /// Also write a report folder (results.json, report.txt, report.md, CSV tables).
     #[arg(long, value_name = "DIR")]
     pub report: Option<PathBuf>,
     /// No progress bars.
     #[arg(long)]
     pub quiet: bool,
+    /// Text output: add every engine's details below the summary sections.
+    #[arg(long)]
+    pub details: bool,
 }
 
 /// Output formats.
@@ -215,6 +225,8 @@ pub enum FormatArg {
     Json,
     /// The per-engine, per-term results as CSV.
     Csv,
+    /// The full report as Markdown.
+    Markdown,
 }
 
 impl From<FormatArg> for Format {
@@ -223,11 +235,21 @@ impl From<FormatArg> for Format {
             FormatArg::Text => Format::Text,
             FormatArg::Json => Format::Json,
             FormatArg::Csv => Format::Csv,
+            FormatArg::Markdown => Format::Markdown,
         }
     }
 }
 
 impl Cli {
+    /// Whether the text report should carry every engine's details (`--details`).
+    pub fn details(&self) -> bool {
+        match &self.command {
+            Command::Analyze(a) | Command::Describe(a) => a.output.details,
+            Command::Demo(d) => d.details,
+            Command::Completions { .. } | Command::Manpage => false,
+        }
+    }
+
     /// Validates the flags into a run configuration.
     ///
     /// # Errors
@@ -302,7 +324,7 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         return Err(Error::usage("--threads 0", "give at least one thread, or leave it out"));
     }
     let known = quorum::engines::ids();
-    let engines = match &e.engines {
+    let engines: Vec<String> = match &e.engines {
         None => known.iter().map(|s| s.to_string()).collect(),
         Some(list) => {
             for id in list {
@@ -330,12 +352,34 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         resamples: e.resamples,
         seed: e.seed,
         threads: e.threads,
-        engines,
         quiet: false,
         wj_reference: e.wj_reference.into(),
         hc: HcType::ALL[usize::from(e.hc.min(4))],
         drop_rule: e.drop_rule.into(),
+        primary: primary_engine(e.primary.as_deref(), &engines)?,
+        engines,
     })
+}
+
+/// `--primary`: a known engine id that is among the engines to run.
+fn primary_engine(primary: Option<&str>, engines: &[String]) -> Result<Option<String>> {
+    let Some(id) = primary.map(str::trim) else {
+        return Ok(None);
+    };
+    let known = quorum::engines::ids();
+    if !known.contains(&id) {
+        return Err(Error::usage(
+            format!("--primary `{id}` is not an engine"),
+            format!("the engines are {}", known.join(", ")),
+        ));
+    }
+    if !engines.iter().any(|e| e == id) {
+        return Err(Error::usage(
+            format!("--primary `{id}` is not among the engines to run ({})", engines.join(", ")),
+            format!("add `{id}` to --engines, or fix another engine as primary"),
+        ));
+    }
+    Ok(Some(id.to_string()))
 }
 
 fn parse_levels(arg: &str) -> Result<(String, Vec<String>)> {

@@ -209,6 +209,9 @@ pub struct Settings {
     pub hc: HcType,
     /// Which points the sensitivity variant removes (default far-out points).
     pub drop_rule: DropRule,
+    /// Primary engine fixed in advance (`--primary`, preregistration); None: chosen by
+    /// the rules of METHODS §11.2 from the calibrated flags.
+    pub primary: Option<String>,
 }
 
 /// The default seed of every random stream (METHODS §10.2).
@@ -231,6 +234,7 @@ impl Default for Settings {
             wj_reference: WjReference::F,
             hc: HcType::Hc3,
             drop_rule: DropRule::Far,
+            primary: None,
         }
     }
 }
@@ -244,6 +248,8 @@ pub enum Format {
     Json,
     /// The per-engine, per-term results as CSV (guarded against formula injection).
     Csv,
+    /// The report as Markdown (the same content as the text report, with its details).
+    Markdown,
 }
 
 /// What to produce and where.

@@ -20,7 +20,8 @@
 //! * [`engines`] holds one inference engine per file behind the [`engines::Engine`] trait.
 //! * [`diagnostics`] describes cells and checks assumptions; it never decides.
 //! * [`sensitivity`] reruns the engines without the points a drop rule flags (descriptive).
-//! * [`concordance`] compares the engines' decisions term by term.
+//! * [`concordance`] compares the engines' decisions term by term and chooses the primary engine.
+//! * [`evidence`] computes what the concordance's explanations need beside the engines.
 //! * [`robust`] holds trimmed-mean building blocks (Welch–James, Yuen, robust d).
 //! * [`report`] renders the one [`results::Analysis`] value; it never computes statistics.
 #![deny(missing_docs)]
@@ -35,6 +36,7 @@ pub mod diagnostics;
 pub mod dist;
 pub mod engines;
 pub mod error;
+pub mod evidence;
 pub mod model;
 pub mod rank;
 pub mod report;

@@ -321,57 +321,21 @@ pub fn write_text(blocks: &[Block], st: TextStyle, out: &mut dyn Write) -> io::R
     Ok(())
 }
 
-/// Escapes text for Markdown: backslash-escapes every ASCII punctuation character that
-/// can start or end markup (CommonMark allows a backslash before any ASCII punctuation),
-/// so user-supplied labels never become emphasis, links, HTML, headings or table cells.
-pub fn escape_markdown(s: &str) -> String {
-    let mut out = String::with_capacity(s.len());
-    for ch in s.chars() {
-        if matches!(
-            ch,
-            '\\' | '`'
-                | '*'
-                | '_'
-                | '{'
-                | '}'
-                | '['
-                | ']'
-                | '<'
-                | '>'
-                | '('
-                | ')'
-                | '#'
-                | '+'
-                | '-'
-                | '.'
-                | '!'
-                | '|'
-                | '~'
-                | '&'
-                | '='
-        ) {
-            out.push('\\');
-        }
-        if ch == '\n' || ch == '\r' {
-            out.push(' ');
-        } else {
-            out.push(ch);
-        }
-    }
-    out
-}
-
-/// Escaping that keeps ordinary prose readable in the Markdown source: only the
-/// characters that could start markup mid-line are escaped (`\`, `` ` ``, `*`, `_`,
-/// `[`, `]`, `<`, `>`, `|`, `~`, `&`), and `#`, `-`, `+`, `.`, `!`, `=` only where they
-/// begin a line (this writer never puts a span at a line start except the first).
+/// Escaping that keeps ordinary prose readable in the Markdown source: the characters
+/// that can open or close inline markup anywhere (`\`, `` ` ``, `*`, `_`, `[`, `]`,
+/// `<`, `>`, `|`, `~`, `&`) always get a backslash; at the start of a line also a
+/// leading `#`, `-`, `+`, `=` (headings, lists, setext underlines) and the `.` or `)`
+/// after leading digits (ordered lists). CommonMark lets a backslash escape any ASCII
+/// punctuation and nothing else, so digits themselves are never escaped.
 fn escape_prose(s: &str, at_line_start: bool) -> String {
+    let chars: Vec<char> = s.chars().collect();
+    let leading_digits = if at_line_start { chars.iter().take_while(|c| c.is_ascii_digit()).count() } else { 0 };
     let mut out = String::with_capacity(s.len());
-    for (i, ch) in s.chars().enumerate() {
-        let start = at_line_start && i == 0;
-        if matches!(ch, '\\' | '`' | '*' | '_' | '[' | ']' | '<' | '>' | '|' | '~' | '&')
-            || (start && matches!(ch, '#' | '-' | '+' | '!' | '=' | '.' | '0'..='9'))
-        {
+    for (i, &ch) in chars.iter().enumerate() {
+        let start_marker = at_line_start
+            && ((i == 0 && matches!(ch, '#' | '-' | '+' | '='))
+                || (leading_digits > 0 && i == leading_digits && matches!(ch, '.' | ')')));
+        if matches!(ch, '\\' | '`' | '*' | '_' | '[' | ']' | '<' | '>' | '|' | '~' | '&') || start_marker {
             out.push('\\');
         }
         if ch == '\n' || ch == '\r' {
@@ -383,10 +347,10 @@ fn escape_prose(s: &str, at_line_start: bool) -> String {
     out
 }
 
-fn md_inline(line: &Inline) -> String {
+fn md_inline(line: &Inline, at_line_start: bool) -> String {
     let mut out = String::new();
     for (i, s) in line.0.iter().enumerate() {
-        let text = escape_prose(&s.text, i == 0);
+        let text = escape_prose(&s.text, at_line_start && i == 0);
         // Emphasis markers must hug non-space text: move surrounding spaces outside.
         let trimmed = text.trim();
         let (lead, trail) = if trimmed.is_empty() {
@@ -400,7 +364,7 @@ fn md_inline(line: &Inline) -> String {
             Style::Strong | Style::Verdict(Verdict::MethodDependent) if !trimmed.is_empty() => {
                 out.push_str(&format!("{lead}**{trimmed}**{trail}"))
             }
-            Style::Symbol | Style::Warn if !trimmed.is_empty() => out.push_str(&format!("{lead}*{trimmed}*{trail}")),
+            Style::Symbol if !trimmed.is_empty() => out.push_str(&format!("{lead}*{trimmed}*{trail}")),
             _ => out.push_str(&text),
         }
     }
@@ -414,18 +378,18 @@ fn md_inline(line: &Inline) -> String {
 pub fn write_markdown(blocks: &[Block], out: &mut dyn Write) -> io::Result<()> {
     for b in blocks {
         match b {
-            Block::Title(t) => writeln!(out, "# {}\n", md_inline(t))?,
-            Block::Heading(t) => writeln!(out, "## {}\n", md_inline(t))?,
-            Block::Subheading(t) => writeln!(out, "### {}\n", md_inline(t))?,
-            Block::Para(t) => writeln!(out, "{}\n", md_inline(t))?,
+            Block::Title(t) => writeln!(out, "# {}\n", md_inline(t, false))?,
+            Block::Heading(t) => writeln!(out, "## {}\n", md_inline(t, false))?,
+            Block::Subheading(t) => writeln!(out, "### {}\n", md_inline(t, false))?,
+            Block::Para(t) => writeln!(out, "{}\n", md_inline(t, true))?,
             Block::Lines(lines) => {
                 // Hard line breaks (two trailing spaces) keep label/value lines apart.
-                let body: Vec<String> = lines.iter().map(md_inline).collect();
+                let body: Vec<String> = lines.iter().map(|l| md_inline(l, true)).collect();
                 writeln!(out, "{}\n", body.join("  \n"))?;
             }
             Block::Bullets(items) => {
                 for i in items {
-                    writeln!(out, "- {}", md_inline(i))?;
+                    writeln!(out, "- {}", md_inline(i, true))?;
                 }
                 writeln!(out)?;
             }
@@ -443,7 +407,7 @@ pub fn write_markdown(blocks: &[Block], out: &mut dyn Write) -> io::Result<()> {
                 writeln!(out, "| {} |", rule.join(" | "))?;
                 for r in &t.rows {
                     let cells: Vec<String> = (0..t.columns.len())
-                        .map(|i| r.get(i).map(md_inline).unwrap_or_default())
+                        .map(|i| r.get(i).map(|c| md_inline(c, false)).unwrap_or_default())
                         .map(|c| if c.is_empty() { " ".into() } else { c })
                         .collect();
                     writeln!(out, "| {} |", cells.join(" | "))?;
@@ -531,12 +495,13 @@ mod tests {
         let out = md(&[
             Block::Table(t),
             Block::Para(Inline::plain("# not a heading")),
-            Block::Lines(vec!["- not a list".into()]),
+            Block::Lines(vec!["- not a list".into(), "12. not a list".into()]),
+            Block::Bullets(vec!["1) nor this".into()]),
         ]);
         assert!(out.contains(r"a\|b \*x\* \_y\_ \[link\](http://e) \<script\> \`c\` \\ \~z\~ \& #h"), "{out}");
         assert!(out.contains("\\# not a heading"));
         assert!(out.contains("\\- not a list"));
-        assert_eq!(escape_markdown("a-b.c"), r"a\-b\.c");
+        assert!(out.contains("12\\. not a list") && out.contains("- 1\\) nor this"), "{out}");
         // A preformatted block with backticks gets a longer fence.
         let out = md(&[Block::Pre("x ``` y\n".into())]);
         assert!(out.starts_with("````text\n"), "{out}");
@@ -553,5 +518,10 @@ mod tests {
         assert_eq!(md(&[Block::Para(l)]), "value *F*(2, 51) = 4.54, *p* = .015\n\n");
         let l = Inline::new().add(Style::Strong, " primary ");
         assert_eq!(md(&[Block::Para(l)]), " **primary** \n\n");
+        // Table cells are not line starts: numbers stay as they are.
+        let mut t = DocTable::new(&[("x", Align::Right)]);
+        t.row(vec!["-0.77".into()]);
+        t.row(vec![".015".into()]);
+        assert_eq!(md(&[Block::Table(t)]), "| x |\n| ---: |\n| -0.77 |\n| .015 |\n\n");
     }
 }

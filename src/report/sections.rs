@@ -490,7 +490,12 @@ fn sensitivity(a: &Analysis, b: &mut Vec<Block>) {
     let alpha = paper::alpha(a);
     let primary_id = a.primary_engine.as_ref().and_then(|p| p.engine.as_deref());
     for s in &a.sensitivity {
-        b.push(Block::Heading(Inline::plain(format!("Sensitivity: {}", s.variant.replace('-', " ")))));
+        let name = match s.variant.as_str() {
+            "without-far-out-points" => "without far-out points".to_string(),
+            "without-mad-median-points" => "without MAD–median points".to_string(),
+            other => other.replace('-', " "),
+        };
+        b.push(Block::Heading(Inline::plain(format!("Sensitivity: {name}"))));
         let mut lines = vec![Inline::plain(format!("rule     `{}`: {}", s.rule, s.description))];
         if s.rows_removed.is_empty() {
             lines.push(Inline::plain("removed  nothing: no point met the rule, so the variant is the main analysis"));

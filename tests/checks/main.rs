@@ -10,6 +10,7 @@ mod bad_inputs;
 mod calibration;
 mod classical;
 mod cli;
+mod concordance;
 mod descriptives;
 mod diagnostics;
 mod heteroscedastic;

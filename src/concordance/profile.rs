@@ -6,7 +6,7 @@
 //! The concordance and the report read engines only through these profiles, so an
 //! engine id quorum does not know (a future engine) still works: it gets
 //! [`HypothesisFamily::Other`], its id as its name and no citation. The ids are fixed
-//! by DESIGN.md. Citations marked [M] in METHODS.md are from memory there and here.
+//! by DESIGN.md. Citations marked \[M\] in METHODS.md are from memory there and here.
 
 use crate::results::HypothesisFamily;
 use serde_json::Value;

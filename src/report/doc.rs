@@ -179,46 +179,48 @@ fn width(s: &str) -> usize {
 }
 
 /// Wraps `line` at `limit` columns; continuation lines get `hang` spaces. Styles are
-/// kept per word.
+/// kept, and each line paints its runs of one style once.
 fn wrap(line: &Inline, first: &str, hang: usize, limit: usize, st: TextStyle) -> Vec<String> {
-    let mut out = Vec::new();
-    let mut cur = first.to_string();
+    // Each output line as (prefix, runs of (style, text)).
+    let mut lines: Vec<(String, Vec<(Style, String)>)> = vec![(first.to_string(), Vec::new())];
     let mut cur_w = width(first);
     let start_w = cur_w;
     let pad = " ".repeat(hang);
     for span in &line.0 {
-        // Split into words, keeping the spaces' positions.
-        let mut word = String::new();
-        let mut pieces: Vec<(String, bool)> = Vec::new(); // (word, followed by space)
-        for ch in span.text.chars() {
-            if ch == ' ' {
-                pieces.push((std::mem::take(&mut word), true));
-            } else {
-                word.push(ch);
-            }
-        }
-        pieces.push((word, false));
-        for (w, space) in pieces {
-            let ww = width(&w);
+        let pieces: Vec<&str> = span.text.split(' ').collect();
+        let last = pieces.len() - 1;
+        for (k, w) in pieces.into_iter().enumerate() {
+            let ww = width(w);
             if cur_w + ww > limit && cur_w > start_w.max(hang) && !w.is_empty() {
-                out.push(cur.trim_end().to_string());
-                cur = pad.clone();
+                if let Some((_, runs)) = lines.last_mut() {
+                    if let Some((_, t)) = runs.last_mut() {
+                        let trimmed = t.trim_end().to_string();
+                        *t = trimmed;
+                    }
+                }
+                lines.push((pad.clone(), Vec::new()));
                 cur_w = hang;
             }
-            cur.push_str(&paint(span.style, &w, st));
-            cur_w += ww;
-            if space {
-                cur.push(' ');
-                cur_w += 1;
+            let text = if k < last { format!("{w} ") } else { w.to_string() };
+            cur_w += width(&text);
+            if let Some((_, runs)) = lines.last_mut() {
+                match runs.last_mut() {
+                    Some((style, t)) if *style == span.style => t.push_str(&text),
+                    _ => runs.push((span.style, text)),
+                }
             }
         }
     }
-    if cur.trim().is_empty() {
-        if out.is_empty() {
-            out.push(String::new());
-        }
-    } else {
-        out.push(cur.trim_end().to_string());
+    let mut out: Vec<String> = lines
+        .into_iter()
+        .map(|(prefix, runs)| {
+            let body: String = runs.iter().map(|(style, t)| paint(*style, t, st)).collect();
+            format!("{prefix}{body}").trim_end().to_string()
+        })
+        .filter(|l| !l.trim().is_empty())
+        .collect();
+    if out.is_empty() {
+        out.push(String::new());
     }
     out
 }

@@ -322,7 +322,7 @@ fn concordance(a: &Analysis, b: &mut Vec<Block>) {
     b.push(Block::Para(Inline::new().add(
         Style::Muted,
         format!(
-            "p and decision of each engine at α = {}: ● reject, ○ retain, ? undetermined (Monte Carlo), n/a not applicable; * primary",
+            "p and decision per engine at α = {}: ● reject  ○ retain  ? undetermined  n/a not applicable  * primary engine",
             apa::alpha(alpha)
         ),
     )));

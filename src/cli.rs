@@ -338,6 +338,7 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
             known.iter().filter(|k| list.iter().any(|id| id.trim() == **k)).map(|s| s.to_string()).collect()
         }
     };
+    let primary = primary_engine(e.primary.as_deref(), &engines)?;
     Ok(Settings {
         alpha: e.alpha,
         ci_level: e.ci_level,
@@ -352,12 +353,12 @@ fn settings(e: &EngineArgs) -> Result<Settings> {
         resamples: e.resamples,
         seed: e.seed,
         threads: e.threads,
+        engines,
         quiet: false,
         wj_reference: e.wj_reference.into(),
         hc: HcType::ALL[usize::from(e.hc.min(4))],
         drop_rule: e.drop_rule.into(),
-        primary: primary_engine(e.primary.as_deref(), &engines)?,
-        engines,
+        primary,
     })
 }
 

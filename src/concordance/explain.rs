@@ -316,7 +316,8 @@ pub fn annotate(rows: &mut [Concordance], inputs: &Inputs<'_>) {
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::results::{AgreementBasis, Effect, FTest, MonteCarlo, TermEvidence, TermResult};
+    use crate::resample::mc::McCount;
+    use crate::results::{AgreementBasis, Effect, FTest, TermEvidence, TermResult};
     use std::collections::BTreeMap;
 
     fn call(id: &str, d: Option<Decision>, p: f64) -> EngineCall {
@@ -514,15 +515,8 @@ mod tests {
             details: None,
             notes: vec![],
         };
-        perm.terms[0].mc = Some(MonteCarlo {
-            resamples: 99_999,
-            exceedances: 4999,
-            se: 0.0007,
-            ci_low: 0.048,
-            ci_high: 0.052,
-            exact: false,
-            scheme: "freedman-lane".into(),
-        });
+        // Through the library's constructor (robust to fields added to `MonteCarlo`).
+        perm.terms[0].mc = Some(McCount { resamples: 99_999, exceedances: 4999 }.to_result("freedman-lane"));
         let engines = [perm];
         let ex = explain(&r, &inputs(&engines, &[]));
         assert!(ex[0].starts_with("Direction conflict: the estimates point in opposite directions (classical mean contrast 0.64 positive; trimmed robust d -0.17 negative)"), "{}", ex[0]);

@@ -32,6 +32,8 @@ pub struct Profile {
     pub id: &'static str,
     /// Family of its hypothesis.
     pub family: HypothesisFamily,
+    /// Column label in the concordance table (the id, shortened where it is long).
+    pub short: &'static str,
     /// Short name for tables and sentences, e.g. `trimmed Welch–James`.
     pub name: &'static str,
     /// Its null hypothesis in a few words.
@@ -45,6 +47,7 @@ pub struct Profile {
 const PROFILES: [Profile; 8] = [
     Profile {
         id: "classical",
+        short: "classical",
         family: HypothesisFamily::Means,
         name: "classical F",
         hypothesis: "equal means (normal errors, equal variances)",
@@ -53,6 +56,7 @@ const PROFILES: [Profile; 8] = [
     },
     Profile {
         id: "hc",
+        short: "hc",
         family: HypothesisFamily::Means,
         name: "HC Wald F",
         hypothesis: "equal means, variances free",
@@ -61,6 +65,7 @@ const PROFILES: [Profile; 8] = [
     },
     Profile {
         id: "trimmed",
+        short: "trimmed",
         family: HypothesisFamily::TrimmedMeans,
         name: "trimmed Welch–James",
         hypothesis: "equal trimmed means, variances free",
@@ -69,6 +74,7 @@ const PROFILES: [Profile; 8] = [
     },
     Profile {
         id: "permutation",
+        short: "perm",
         family: HypothesisFamily::Means,
         name: "permutation F",
         hypothesis: "equal means, exchangeable errors",
@@ -77,6 +83,7 @@ const PROFILES: [Profile; 8] = [
     },
     Profile {
         id: "studentized-permutation",
+        short: "stud-perm",
         family: HypothesisFamily::Means,
         name: "studentized permutation",
         hypothesis: "equal means, variances free",
@@ -85,6 +92,7 @@ const PROFILES: [Profile; 8] = [
     },
     Profile {
         id: "art",
+        short: "art",
         family: HypothesisFamily::AlignedRanks,
         name: "aligned rank transform",
         hypothesis: "no effect on the aligned-rank scale",
@@ -93,6 +101,7 @@ const PROFILES: [Profile; 8] = [
     },
     Profile {
         id: "rank-ats",
+        short: "rank-ats",
         family: HypothesisFamily::RelativeEffects,
         name: "rank ANOVA-type statistic",
         hypothesis: "equal relative effects (distribution functions)",
@@ -101,6 +110,7 @@ const PROFILES: [Profile; 8] = [
     },
     Profile {
         id: "bootstrap",
+        short: "boot",
         family: HypothesisFamily::Means,
         name: "wild bootstrap",
         hypothesis: "equal means, variances free",
@@ -114,6 +124,7 @@ const PROFILES: [Profile; 8] = [
 pub fn profile(id: &str) -> Profile {
     PROFILES.iter().find(|p| p.id == id).copied().unwrap_or(Profile {
         id: "other",
+        short: "other",
         family: HypothesisFamily::Other,
         name: "engine",
         hypothesis: "its own hypothesis",
@@ -129,6 +140,16 @@ pub fn name(id: &str) -> String {
         id.to_string()
     } else {
         p.name.to_string()
+    }
+}
+
+/// The concordance-table label of an engine id (the id itself for an unknown engine).
+pub fn short(id: &str) -> String {
+    let p = profile(id);
+    if p.family == HypothesisFamily::Other {
+        id.to_string()
+    } else {
+        p.short.to_string()
     }
 }
 

@@ -263,32 +263,49 @@ fn verdict_words(v: Verdict) -> &'static str {
     }
 }
 
-/// The verdict cell: word, k of m, and the borderline and direction markers.
+/// The verdict cell: word, rejecting/deciding engines, and the borderline (`≈α`) and
+/// direction-conflict (`⇄`) markers.
 fn verdict_cell(c: &Concordance) -> Inline {
     let m = c.rejecting.len() + c.retaining.len();
     let mut l = Inline::new().add(Style::Verdict(c.verdict), verdict_words(c.verdict));
     if m > 0 {
-        l = l.text(format!(" {} of {m} reject", c.rejecting.len()));
+        l = l.text(format!(" {}/{m}", c.rejecting.len()));
     }
     if c.borderline {
-        l = l.add(Style::Warn, ", borderline");
+        l = l.add(Style::Warn, " ≈α");
     }
     if c.direction_conflict {
-        l = l.add(Style::Warn, ", direction conflict");
+        l = l.add(Style::Warn, " ⇄");
     }
     l
 }
+
+/// Engines beyond which the p-range column is left out of the table (it stays in the
+/// JSON), so that the table fits 120 columns.
+const P_RANGE_MAX_ENGINES: usize = 6;
 
 /// The terms × engines table of one concordance (main analysis or variant).
 fn concordance_table(rows: &[Concordance], primary_id: Option<&str>, alpha: f64) -> DocTable {
     let engines: Vec<String> =
         rows.first().map(|r| r.engines.iter().map(|c| c.engine.clone()).collect()).unwrap_or_default();
-    let headers: Vec<String> =
-        engines.iter().map(|e| if Some(e.as_str()) == primary_id { format!("{e}*") } else { e.clone() }).collect();
+    let headers: Vec<String> = engines
+        .iter()
+        .map(|e| {
+            let s = profile::short(e);
+            if Some(e.as_str()) == primary_id {
+                format!("{s}*")
+            } else {
+                s
+            }
+        })
+        .collect();
+    let range = engines.len() <= P_RANGE_MAX_ENGINES;
     let mut columns: Vec<(String, Align)> = vec![("term".into(), Align::Left)];
     columns.extend(headers.into_iter().map(|h| (h, Align::Right)));
-    columns.push(("p range".into(), Align::Left));
-    columns.push(("verdict".into(), Align::Left));
+    if range {
+        columns.push(("p range".into(), Align::Left));
+    }
+    columns.push(("verdict, rejecting/deciding".into(), Align::Left));
     let mut t = DocTable { columns, rows: Vec::new() };
     for c in rows {
         let mut row = vec![Inline::plain(c.term.clone())];
@@ -303,12 +320,14 @@ fn concordance_table(rows: &[Concordance], primary_id: Option<&str>, alpha: f64)
             let style = if Some(call.engine.as_str()) == primary_id { Style::Strong } else { Style::Plain };
             row.push(Inline::new().add(style, text));
         }
-        let range = match (c.p_min, c.p_max) {
-            (Some(lo), Some(hi)) if lo == hi => apa::p_value(lo, alpha),
-            (Some(lo), Some(hi)) => format!("{}–{}", apa::p_value(lo, alpha), apa::p_value(hi, alpha)),
-            _ => "—".into(),
-        };
-        row.push(Inline::plain(range.replace("< ", "<").replace("> ", ">")));
+        if range {
+            let text = match (c.p_min, c.p_max) {
+                (Some(lo), Some(hi)) if lo == hi => apa::p_value(lo, alpha),
+                (Some(lo), Some(hi)) => format!("{}–{}", apa::p_value(lo, alpha), apa::p_value(hi, alpha)),
+                _ => "—".into(),
+            };
+            row.push(Inline::plain(text.replace("< ", "<").replace("> ", ">")));
+        }
         row.push(verdict_cell(c));
         t.row(row);
     }
@@ -319,16 +338,26 @@ fn concordance(a: &Analysis, b: &mut Vec<Block>) {
     let alpha = paper::alpha(a);
     let primary_id = a.primary_engine.as_ref().and_then(|p| p.engine.as_deref());
     b.push(Block::Heading("Concordance: does each conclusion hold across engines?".into()));
-    b.push(Block::Para(Inline::new().add(
-        Style::Muted,
-        format!(
-            "p and decision per engine at α = {}: ● reject  ○ retain  ? undetermined  n/a not applicable  * primary engine",
-            apa::alpha(alpha)
+    b.push(Block::Lines(vec![
+        Inline::new().add(
+            Style::Muted,
+            format!(
+                "p and decision per engine at α = {}: ● reject  ○ retain  ? undetermined  n/a not applicable  * primary engine",
+                apa::alpha(alpha)
+            ),
         ),
-    )));
+        Inline::new().add(Style::Muted, "verdict markers: ≈α borderline primary p (within a factor √10 of α)  ⇄ direction conflict"),
+    ]));
     b.push(Block::Table(concordance_table(&a.concordance, primary_id, alpha)));
-    let families: Vec<String> =
-        a.engines.iter().map(|e| format!("{} = {}", e.engine, profile::profile(&e.engine).hypothesis)).collect();
+    let families: Vec<String> = a
+        .engines
+        .iter()
+        .map(|e| {
+            let short = profile::short(&e.engine);
+            let label = if short == e.engine { short } else { format!("{short} ({})", e.engine) };
+            format!("{label} = {}", profile::profile(&e.engine).hypothesis)
+        })
+        .collect();
     if !families.is_empty() {
         b.push(Block::Para(Inline::new().add(Style::Muted, format!("Hypotheses: {}.", families.join("; ")))));
     }

@@ -53,7 +53,6 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
     let diagnosis = diagnostics::diagnose(design, &fit, settings.seed);
     let terms: Vec<String> = design.terms().iter().map(|t| t.name.clone()).collect();
     let (engine_results, evidence, primary) = match config.job {
-        Job::Describe => (Vec::new(), Vec::new(), None),
         Job::Analyze => {
             let forms = SsForms::new(&design.layout, &fit.n, crate::config::SsType::Three)?;
             let ctx = Context { design, fit: &fit, forms: &forms, settings };
@@ -69,11 +68,12 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
             });
             (results, evidence, Some(primary))
         }
+        _ => (Vec::new(), Vec::new(), None),
     };
     let inputs = concordance::Inputs { primary: primary.as_ref(), evidence: &evidence, alpha: settings.alpha };
     let mut concordance = match config.job {
-        Job::Describe => Vec::new(),
         Job::Analyze => concordance::compare(&terms, &engine_results, &inputs),
+        _ => Vec::new(),
     };
     // Sensitivity variant without the points of the drop rule (descriptive). Its
     // concordance keeps the main analysis's primary engine (pre-specified).

@@ -246,7 +246,7 @@ impl Cli {
         match &self.command {
             Command::Analyze(a) | Command::Describe(a) => a.output.details,
             Command::Demo(d) => d.details,
-            Command::Completions { .. } | Command::Manpage => false,
+            _ => false,
         }
     }
 

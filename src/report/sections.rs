@@ -423,7 +423,10 @@ fn effects(a: &Analysis, b: &mut Vec<Block>) {
         for e in a.engines.iter().filter(|e| e.engine != "classical") {
             for t in &e.terms {
                 if let Some(x) = &t.effect {
-                    if !v.iter().any(|(id, n)| id == &e.engine && n == &x.name) {
+                    // A partial η² without an interval repeats the classical column
+                    // (the permutation engine reports the same point estimate).
+                    let repeats = classical.is_some() && x.name == "partial_eta_squared" && x.ci_low.is_none();
+                    if !repeats && !v.iter().any(|(id, n)| id == &e.engine && n == &x.name) {
                         v.push((e.engine.clone(), x.name.clone()));
                     }
                 }

@@ -55,24 +55,64 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         (Job::Analyze, Some(sims)) => Some(crate::plan::calibrate(design, settings, sims)?),
         _ => None,
     };
-    let (engine_results, concordance) = match config.job {
-        Job::Describe | Job::Probe => (Vec::new(), Vec::new()),
+    let terms: Vec<String> = design.terms().iter().map(|t| t.name.clone()).collect();
+    let (engine_results, evidence, primary) = match config.job {
         Job::Analyze => {
             let forms = SsForms::new(&design.layout, &fit.n, crate::config::SsType::Three)?;
             let ctx = Context { design, fit: &fit, forms: &forms, settings };
             let results = engines::run_selected(&ctx)?;
-            let terms: Vec<String> = design.terms().iter().map(|t| t.name.clone()).collect();
-            let conc = concordance::verdicts(&terms, &results);
-            (results, conc)
+            let evidence = crate::evidence::compute(design, settings);
+            // The primary engine is chosen from the flags and the engines that ran,
+            // before any p-value is read (METHODS §11.2).
+            let primary = concordance::primary::choose(&concordance::primary::Inputs {
+                flags: &diagnosis.diagnostics.flags,
+                cell_sizes: &design.cell_sizes(),
+                engines: &results,
+                fixed: settings.primary.as_deref(),
+            });
+            (results, evidence, Some(primary))
         }
+        _ => (Vec::new(), Vec::new(), None),
     };
-    // Sensitivity variant without the points of the drop rule (descriptive).
-    let sensitivity = match (config.job, diagnosis.removal(settings.drop_rule)) {
+    let inputs = concordance::Inputs { primary: primary.as_ref(), evidence: &evidence, alpha: settings.alpha };
+    let mut concordance = match config.job {
+        Job::Analyze => concordance::compare(&terms, &engine_results, &inputs),
+        _ => Vec::new(),
+    };
+    // Sensitivity variant without the points of the drop rule (descriptive). Its
+    // concordance keeps the main analysis's primary engine (pre-specified).
+    let mut sensitivity = match (config.job, diagnosis.removal(settings.drop_rule)) {
         (Job::Analyze, Some(removal)) => {
-            vec![crate::sensitivity::variant(design, settings, removal, &engine_results, &concordance)?]
+            let mut v = crate::sensitivity::variant(design, settings, removal, &engine_results, &concordance)?;
+            let reduced_evidence = if removal.rows.is_empty() {
+                evidence.clone()
+            } else {
+                design
+                    .without_observations(&removal.rows)
+                    .map(|d| crate::evidence::compute(&d, settings))
+                    .unwrap_or_default()
+            };
+            let v_inputs = concordance::Inputs { evidence: &reduced_evidence, ..inputs };
+            v.concordance = concordance::compare(&terms, &v.engines, &v_inputs);
+            vec![v]
         }
         _ => Vec::new(),
     };
+    let explain = concordance::explain::Inputs {
+        alpha: settings.alpha,
+        primary: primary.as_ref(),
+        flags: &diagnosis.diagnostics.flags,
+        variance_ratio: diagnosis.diagnostics.variance_ratio,
+        engines: &engine_results,
+        variant: None,
+    };
+    for v in &mut sensitivity {
+        let e = concordance::explain::Inputs { engines: &v.engines, ..explain };
+        concordance::explain::annotate(&mut v.concordance, &e);
+    }
+    let variant =
+        sensitivity.first().map(|v| concordance::explain::Variant { lines: &v.rows_removed, rows: &v.concordance });
+    concordance::explain::annotate(&mut concordance, &concordance::explain::Inputs { variant, ..explain });
     // Follow-ups of the terms that hold or are method-dependent (METHODS §9).
     let followup = match config.job {
         Job::Analyze => crate::followup::automatic(design, &fit, settings, &concordance)?,
@@ -95,6 +135,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
             command: config.command.clone(),
         },
         calibration,
+        primary_engine: primary,
     })
 }
 

@@ -116,6 +116,9 @@ pub struct DemoArgs {
     /// No progress bars.
     #[arg(long)]
     pub quiet: bool,
+    /// Text output: add every engine's details below the summary sections.
+    #[arg(long)]
+    pub details: bool,
 }
 
 /// Which columns play which role.
@@ -211,6 +214,10 @@ pub struct EngineArgs {
     /// Weights of the bootstrap engine's wild bootstrap test.
     #[arg(long, value_enum, default_value_t = WildWeightsArg::Rademacher)]
     pub wild_weights: WildWeightsArg,
+    /// Fix the primary engine in advance (preregistration) instead of letting the
+    /// pre-specified rules choose it from the calibrated diagnostics.
+    #[arg(long, value_name = "ENGINE")]
+    pub primary: Option<String>,
 }
 
 /// Multiplicity adjustments of follow-up families.
@@ -328,12 +335,15 @@ pub struct OutputArgs {
     /// Output format on standard output.
     #[arg(long, value_enum, default_value_t = FormatArg::Text)]
     pub format: FormatArg,
-    /// Also write a report folder (results.json, report.txt).
+    /// Also write a report folder (results.json, report.txt, report.md, CSV tables).
     #[arg(long, value_name = "DIR")]
     pub report: Option<PathBuf>,
     /// No progress bars.
     #[arg(long)]
     pub quiet: bool,
+    /// Text output: add every engine's details below the summary sections.
+    #[arg(long)]
+    pub details: bool,
 }
 
 /// Output formats.
@@ -345,6 +355,8 @@ pub enum FormatArg {
     Json,
     /// The per-engine, per-term results as CSV.
     Csv,
+    /// The full report as Markdown.
+    Markdown,
 }
 
 impl From<FormatArg> for Format {
@@ -353,11 +365,21 @@ impl From<FormatArg> for Format {
             FormatArg::Text => Format::Text,
             FormatArg::Json => Format::Json,
             FormatArg::Csv => Format::Csv,
+            FormatArg::Markdown => Format::Markdown,
         }
     }
 }
 
 impl Cli {
+    /// Whether the text report should carry every engine's details (`--details`).
+    pub fn details(&self) -> bool {
+        match &self.command {
+            Command::Analyze(a) | Command::Describe(a) => a.output.details,
+            Command::Demo(d) => d.details,
+            _ => false,
+        }
+    }
+
     /// Validates the flags into a run configuration.
     ///
     /// # Errors
@@ -396,7 +418,7 @@ impl ProbeArgs {
             columns: self.columns,
             reading: self.reading,
             engine: self.engine,
-            output: OutputArgs { format: FormatArg::Text, report: None, quiet: true },
+            output: OutputArgs { format: FormatArg::Text, report: None, quiet: true, details: false },
             calibrate: crate::plan_cli::CalibrateArgs { calibrate: false, calibrate_sims: 0 },
         };
         let mut config = run_config(run, Job::Probe, command)?;
@@ -475,7 +497,7 @@ pub(crate) fn settings(e: &EngineArgs) -> Result<Settings> {
         return Err(Error::usage("--threads 0", "give at least one thread, or leave it out"));
     }
     let known = quorum::engines::ids();
-    let engines = match &e.engines {
+    let engines: Vec<String> = match &e.engines {
         None => known.iter().map(|s| s.to_string()).collect(),
         Some(list) => {
             for id in list {
@@ -489,6 +511,7 @@ pub(crate) fn settings(e: &EngineArgs) -> Result<Settings> {
             known.iter().filter(|k| list.iter().any(|id| id.trim() == **k)).map(|s| s.to_string()).collect()
         }
     };
+    let primary = primary_engine(e.primary.as_deref(), &engines)?;
     Ok(Settings {
         alpha: e.alpha,
         ci_level: e.ci_level,
@@ -517,7 +540,29 @@ pub(crate) fn settings(e: &EngineArgs) -> Result<Settings> {
         calibration: None,
         adjust: e.adjust.into(),
         wild_weights: e.wild_weights.into(),
+        primary,
     })
+}
+
+/// `--primary`: a known engine id that is among the engines to run.
+fn primary_engine(primary: Option<&str>, engines: &[String]) -> Result<Option<String>> {
+    let Some(id) = primary.map(str::trim) else {
+        return Ok(None);
+    };
+    let known = quorum::engines::ids();
+    if !known.contains(&id) {
+        return Err(Error::usage(
+            format!("--primary `{id}` is not an engine"),
+            format!("the engines are {}", known.join(", ")),
+        ));
+    }
+    if !engines.iter().any(|e| e == id) {
+        return Err(Error::usage(
+            format!("--primary `{id}` is not among the engines to run ({})", engines.join(", ")),
+            format!("add `{id}` to --engines, or fix another engine as primary"),
+        ));
+    }
+    Ok(Some(id.to_string()))
 }
 
 fn parse_levels(arg: &str) -> Result<(String, Vec<String>)> {

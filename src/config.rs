@@ -240,6 +240,9 @@ pub struct Settings {
     pub adjust: crate::followup::Adjust,
     /// Weights of the `bootstrap` engine's wild bootstrap (default Rademacher).
     pub wild_weights: WildWeights,
+    /// Primary engine fixed in advance (`--primary`, preregistration); None: chosen by
+    /// the rules of METHODS §11.2 from the calibrated flags.
+    pub primary: Option<String>,
 }
 
 /// How the `permutation` engine builds its permuted data (METHODS §3.1).
@@ -303,6 +306,7 @@ impl Default for Settings {
             calibration: None,
             adjust: crate::followup::Adjust::Holm,
             wild_weights: WildWeights::Rademacher,
+            primary: None,
         }
     }
 }
@@ -316,6 +320,8 @@ pub enum Format {
     Json,
     /// The per-engine, per-term results as CSV (guarded against formula injection).
     Csv,
+    /// The report as Markdown (the same content as the text report, with its details).
+    Markdown,
 }
 
 /// What to produce and where.

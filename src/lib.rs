@@ -22,6 +22,8 @@
 //! * [`sensitivity`] reruns the engines without the points a drop rule flags (descriptive).
 //! * [`concordance`] compares the engines' decisions term by term.
 //! * [`followup`] probes effects: simple effects, pairwise comparisons, planned contrasts.
+//! * [`concordance`] compares the engines' decisions term by term and chooses the primary engine.
+//! * [`evidence`] computes what the concordance's explanations need beside the engines.
 //! * [`robust`] holds trimmed-mean building blocks (Welch–James, Yuen, robust d).
 //! * [`plan`] simulates power and type-I error of every engine (designed scenarios, `--like` data).
 //! * [`report`] renders the one [`results::Analysis`] value; it never computes statistics.
@@ -37,6 +39,7 @@ pub mod diagnostics;
 pub mod dist;
 pub mod engines;
 pub mod error;
+pub mod evidence;
 pub mod followup;
 pub mod model;
 pub mod multiplicity;

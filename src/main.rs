@@ -9,8 +9,8 @@ mod plan_cli;
 use clap::Parser;
 use quorum::config::Format;
 use quorum::error::Error;
-use quorum::report::{folder, renderer};
-use std::io::{self, Write};
+use quorum::report::{folder, renderer_with, Detail, RenderOptions};
+use std::io::{self, IsTerminal, Write};
 use std::path::PathBuf;
 use std::process::ExitCode;
 
@@ -43,6 +43,7 @@ fn run(cli: cli::Cli) -> Result<(), Error> {
         cli::Command::Probe(args) => return probe(args),
         command => cli::Cli { command },
     };
+    let detail = if cli.details() { Detail::Full } else { Detail::Summary };
     let config = cli.into_config(command_line())?;
     let analysis = quorum::analysis::run(&config)?;
     let input = match &config.data.source {
@@ -53,7 +54,9 @@ fn run(cli: cli::Cli) -> Result<(), Error> {
         folder::write_report(dir, &analysis, input.as_deref())?;
     }
     let mut stdout = io::stdout().lock();
-    let printed = renderer(config.output.format).render(&analysis, &mut stdout).and_then(|_| stdout.flush());
+    let options = RenderOptions { colour: colour_wanted(), detail };
+    let printed =
+        renderer_with(config.output.format, options).render(&analysis, &mut stdout).and_then(|_| stdout.flush());
     match printed {
         // A closed pipe (`quorum … | head`) is not an error.
         Err(e) if e.kind() == io::ErrorKind::BrokenPipe => {}
@@ -93,6 +96,13 @@ fn shell_integration(shell: Option<clap_complete::Shell>) -> Result<(), Error> {
         None => clap_mangen::Man::new(cmd).render(&mut stdout),
     };
     written.map_err(|e| Error::Io { path: "<stdout>".into(), action: "writing", source: e })
+}
+
+/// Colour only on a terminal, and never when `NO_COLOR` is set to a non-empty value
+/// (no-color.org) or the terminal is `dumb`.
+fn colour_wanted() -> bool {
+    let set = |name: &str| std::env::var_os(name).is_some_and(|v| !v.is_empty());
+    io::stdout().is_terminal() && !set("NO_COLOR") && std::env::var_os("TERM").is_none_or(|t| t != "dumb")
 }
 
 fn display_dir(dir: &std::path::Path) -> String {

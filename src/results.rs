@@ -41,6 +41,8 @@ pub struct Analysis {
     /// shaped like these (absent without the flag).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub calibration: Option<crate::plan::Calibration>,
+    /// The primary engine and why (METHODS §11.2); null for `describe`.
+    pub primary_engine: Option<PrimaryChoice>,
 }
 
 /// What was read from the input.
@@ -631,6 +633,154 @@ pub struct Concordance {
     pub primary: Option<String>,
     /// Why that engine is primary.
     pub reason: Option<String>,
+    /// What `agreeing` and `dissenting` are measured against.
+    pub basis: AgreementBasis,
+    /// Engines whose p is below α (decided `reject`).
+    pub rejecting: Vec<String>,
+    /// Engines that decided `retain`.
+    pub retaining: Vec<String>,
+    /// Every engine's call on the term, in engine order.
+    pub engines: Vec<EngineCall>,
+    /// The primary engine's p lies within a factor √10 of α: |log10(p/α)| < 0.5
+    /// (METHODS §11.1).
+    pub borderline: bool,
+    /// A 1-df term whose signed estimates point in different directions across the
+    /// engines that have one (METHODS §11.1: serious, always shown).
+    pub direction_conflict: bool,
+    /// Smallest p over the engines that report one.
+    pub p_min: Option<f64>,
+    /// Largest p over the engines that report one.
+    pub p_max: Option<f64>,
+    /// log10(p_max/p_min): orders of magnitude between the engines' p-values.
+    pub log10_p_spread: Option<f64>,
+    /// Quantities computed alongside the engines for the explanations.
+    pub evidence: Option<TermEvidence>,
+    /// Disagreements tied to what quorum measured, worded as associations.
+    pub explanations: Vec<String>,
+}
+
+/// What a concordance row's `agreeing`/`dissenting` lists are measured against.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum AgreementBasis {
+    /// The primary engine's decision (it decided).
+    Primary,
+    /// No primary decision (no primary engine, or it is undetermined or not applicable
+    /// on this term): the decision of the majority of the deciding engines.
+    Majority,
+    /// No primary decision and the deciding engines split evenly: nothing to agree
+    /// with, so `agreeing` and `dissenting` are empty (see `rejecting`/`retaining`).
+    EvenSplit,
+    /// No engine decided.
+    NoDecision,
+}
+
+/// What an engine's hypothesis is about (METHODS §11.1 "hypothesis family").
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum HypothesisFamily {
+    /// Cell means (classical, hc, permutation, studentized permutation, wild bootstrap).
+    Means,
+    /// Cell trimmed means (trimmed Welch–James).
+    TrimmedMeans,
+    /// The effect on the aligned-rank scale (ART).
+    AlignedRanks,
+    /// Relative effects, i.e. the cells' distribution functions (rank ATS).
+    RelativeEffects,
+    /// An engine quorum does not describe.
+    Other,
+}
+
+/// One engine's call on one term, as the concordance reads it.
+#[derive(Debug, Clone, Serialize)]
+pub struct EngineCall {
+    /// Engine id.
+    pub engine: String,
+    /// What its hypothesis is about.
+    pub family: HypothesisFamily,
+    /// Its p-value.
+    pub p: Option<f64>,
+    /// Its decision; null when not applicable.
+    pub decision: Option<Decision>,
+    /// Sign of its estimate for a 1-df term (−1, 0, 1); null where it has no signed
+    /// estimate (terms with more than 1 df, ART, not applicable).
+    pub sign: Option<i8>,
+    /// The signed estimate behind `sign` and what it is.
+    pub estimate: Option<Effect>,
+}
+
+/// Quantities computed from the data for the concordance's explanations (never read
+/// from another engine): see `evidence.rs`.
+#[derive(Debug, Clone, Serialize)]
+pub struct TermEvidence {
+    /// Term id.
+    pub term: String,
+    /// 1-df terms: the unweighted contrast of cell means ℓ'ȳ (first level minus last;
+    /// interactions: difference of differences), outcome units; the estimate of every
+    /// engine that tests means.
+    pub mean_contrast: Option<f64>,
+    /// Welch–James on untrimmed means (γ = 0; Q = q × HC2 Wald F), beside the trimmed
+    /// engine's test, when that engine trims.
+    pub untrimmed_welch_james: Option<FTest>,
+    /// Decision of `untrimmed_welch_james` at α.
+    pub untrimmed_decision: Option<Decision>,
+}
+
+/// A rule of METHODS §11.2 for the primary engine.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Serialize)]
+#[serde(rename_all = "kebab-case")]
+pub enum PrimaryRule {
+    /// Rule 1: ordinal or heavily tied outcome → rank ATS.
+    OrdinalOrTied,
+    /// Rule 2: heavy tails or far-out points → trimmed Welch–James.
+    HeavyTailsOrOutliers,
+    /// Rule 3: unequal variances with unequal n → heteroscedastic test on means.
+    UnequalVariancesUnequalN,
+    /// Rule 4: skew in small cells → trimmed Welch–James with a bootstrap critical value.
+    SkewSmallCells,
+    /// Rule 5: non-normal, homoscedastic, small n → Freedman–Lane permutation.
+    NonNormalSmallN,
+    /// Rule 6: none of the above → classical F.
+    NoneOfTheAbove,
+}
+
+/// A rule that applied but whose engine could not serve as primary.
+#[derive(Debug, Clone, Serialize)]
+pub struct SkippedRule {
+    /// The rule.
+    pub rule: PrimaryRule,
+    /// Its number in METHODS §11.2.
+    pub number: u8,
+    /// Why it was passed over (its engine did not run, or ran with other settings).
+    pub why: String,
+}
+
+/// The primary engine: chosen before looking at any p-value, by the first rule of
+/// METHODS §11.2 that applies and whose engine ran, or fixed by the user (`--primary`).
+#[derive(Debug, Clone, Serialize)]
+pub struct PrimaryChoice {
+    /// Engine id; null when no rule's engine ran.
+    pub engine: Option<String>,
+    /// The engine's settings as it ran (trimming, reference distribution, HC type, …).
+    pub settings: BTreeMap<String, serde_json::Value>,
+    /// Fixed in advance with `--primary` (preregistration) rather than chosen by the rules.
+    pub fixed: bool,
+    /// The rule that chose it (null when fixed or when none could).
+    pub rule: Option<PrimaryRule>,
+    /// Its number in METHODS §11.2.
+    pub rule_number: Option<u8>,
+    /// Why, in words, with the diagnostics that fired the rule.
+    pub reason: String,
+    /// The literature behind the rule.
+    pub citations: Vec<String>,
+    /// Calibrated (or structural) flag codes the rule read.
+    pub flags: Vec<String>,
+    /// Rules that applied first but whose engine could not serve.
+    pub skipped: Vec<SkippedRule>,
+    /// When fixed: what the rules would have chosen (information only).
+    pub rules_would_choose: Option<String>,
+    /// Remarks (estimand, engines not recommended under this rule, an engine that did not run).
+    pub notes: Vec<String>,
 }
 
 /// A sensitivity variant: the analysis rerun on modified data (descriptive p-values).

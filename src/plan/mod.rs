@@ -648,6 +648,10 @@ pub fn write_outputs(
         Format::Json => out.write_all(to_json(report).as_bytes()),
         Format::Text => text::render(report, out),
         Format::Csv => out.write_all(to_csv(report).as_bytes()),
+        // The plan's tables are aligned text; Markdown carries them as a fenced block.
+        Format::Markdown => {
+            out.write_all(b"```text\n").and_then(|_| text::render(report, out)).and_then(|_| out.write_all(b"```\n"))
+        }
     };
     match printed.and_then(|_| out.flush()) {
         Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => {}

@@ -87,7 +87,7 @@ fn same_file(a: &Path, b: &Path) -> bool {
     }
 }
 
-/// Writes the report folder for `analysis`: `results.json`, `report.txt`, the CSV tables
+/// Writes the report folder for `analysis`: `results.json`, `report.txt`, `report.md`, the CSV tables
 /// (`terms.csv`, `cells.csv`, `marginal-means.csv`, `verdicts.csv`) and the marker.
 /// Returns the files written.
 ///
@@ -99,6 +99,7 @@ pub fn write_report(dir: &Path, analysis: &crate::results::Analysis, input: Opti
     let files = [
         ("results.json", to_string(&Json, analysis)),
         ("report.txt", to_string(&Text, analysis)),
+        ("report.md", to_string(&super::markdown::Markdown, analysis)),
         ("terms.csv", super::csv::terms_table(analysis)),
         ("cells.csv", super::csv::cells_table(analysis)),
         ("marginal-means.csv", super::csv::marginal_means_table(analysis)),

@@ -1,159 +1,52 @@
 //! The text report for people at a terminal: compact aligned tables, in the order a
-//! reader needs them (data and design, cells, diagnostics, tests, verdicts, cautions).
+//! reader needs them (data and design, diagnostics, the concordance, effect sizes, the
+//! far-out variant, follow-ups, text for the paper, cautions), then engine-by-engine
+//! details in the full report. The sections themselves are built in `sections.rs` and
+//! shared with the Markdown report; this file holds the text renderers and the
+//! engine-specific detail sections (one per engine kind).
 
+use super::doc::TextStyle;
 use super::table::{num, p_value, Align, Table};
-use super::Render;
+use super::{Detail, Render};
 use crate::results::{
-    Analysis, ArtDetails, BootstrapDetails, Decision, Details, EngineResult, Interval, IntervalFamily, RankAtsDetails,
-    Verdict, WelchJamesRow,
+    Analysis, ArtDetails, BootstrapDetails, Decision, Details, EngineResult, IntervalFamily, RankAtsDetails,
+    WelchJamesRow,
 };
 use std::io::{self, Write};
 
-/// The plain-text renderer.
+/// The full plain-text report (summary sections and every engine's details, no
+/// colour): what `report.txt` holds.
 pub struct Text;
 
 impl Render for Text {
     fn render(&self, a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
-        header(a, out)?;
-        cells(a, out)?;
-        marginals(a, out)?;
-        diagnostics(a, out)?;
-        for e in &a.engines {
-            engine(e, out)?;
-        }
-        verdicts(a, out)?;
-        super::followup_text::followups(&a.followup, out)?;
-        super::diagnostics_text::sensitivity(a, out)?;
-        if let Some(c) = &a.calibration {
-            crate::plan::text::calibration_section(c, out)?;
-        }
-        footer(a, out)
+        TextReport { colour: false, detail: Detail::Full }.render(a, out)
     }
 }
 
-fn interval(i: &Option<Interval>, sig: usize) -> String {
-    match i {
-        Some(i) => format!("[{}, {}]", num(i.low, sig), num(i.high, sig)),
-        None => "—".into(),
+/// The text report with its options: colour (only on a terminal without `NO_COLOR`;
+/// the binary decides) and how much detail.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct TextReport {
+    /// Emit ANSI colour and bold.
+    pub colour: bool,
+    /// Summary sections only, or with every engine's details.
+    pub detail: Detail,
+}
+
+/// Width the text report wraps its paragraphs at.
+pub const WIDTH: usize = 118;
+
+impl Render for TextReport {
+    fn render(&self, a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
+        let blocks = super::sections::build(a, self.detail);
+        super::doc::write_text(&blocks, TextStyle { colour: self.colour, width: WIDTH }, out)
     }
 }
 
-fn header(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
-    let d = &a.design;
-    let names: Vec<&str> = d.factors.iter().map(|f| f.name.as_str()).collect();
-    writeln!(out, "quorum {} · outcome `{}` by {}", a.reproducibility.version, d.outcome, names.join(" × "))?;
-    writeln!(out)?;
-    write!(out, "Data      {}: {} rows read, {} used", a.input.path, a.input.rows_read, a.input.rows_used)?;
-    if a.input.dropped.is_empty() {
-        writeln!(out)?;
-    } else {
-        let lines: Vec<String> = a.input.dropped.iter().take(12).map(|d| d.line.to_string()).collect();
-        let more = if a.input.dropped.len() > 12 { ", …" } else { "" };
-        writeln!(out, ", {} dropped for missing values (lines {}{more})", a.input.dropped.len(), lines.join(", "))?;
-    }
-    for f in &d.factors {
-        let kind = if f.measured { " (measured)" } else { "" };
-        writeln!(out, "Factor    {}{kind}: {} levels, in order {}", f.name, f.levels.len(), f.levels.join(" < "))?;
-    }
-    let ns: Vec<usize> = d.cells.iter().map(|c| c.n).collect();
-    let (lo, hi) = (ns.iter().min().copied().unwrap_or(0), ns.iter().max().copied().unwrap_or(0));
-    let balance =
-        if d.balanced { format!("balanced, n = {lo} per cell") } else { format!("unbalanced, n from {lo} to {hi}") };
-    writeln!(out, "Cells     {} ({balance})", d.cells.len())?;
-    writeln!(out)
-}
-
-fn cells(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
-    let d = &a.design;
-    let Some(first) = d.cells.first() else {
-        return Ok(());
-    };
-    let level = first.mean_ci.map(|i| i.level).unwrap_or(0.95);
-    let trim_pct = (first.trim * 100.0).round();
-    writeln!(
-        out,
-        "Cell summaries (mean CI: {}% t interval from the cell's own sd; trimmed mean and winsorized sd at {trim_pct}%)",
-        (level * 100.0).round()
-    )?;
-    let mut cols: Vec<(String, Align)> = d.factors.iter().map(|f| (f.name.clone(), Align::Left)).collect();
-    for (h, al) in [
-        ("n", Align::Right),
-        ("mean", Align::Right),
-        ("mean CI", Align::Left),
-        ("sd", Align::Right),
-        ("median", Align::Right),
-        ("trimmed", Align::Right),
-        ("wins.sd", Align::Right),
-        ("skew G1", Align::Right),
-        ("kurt G2", Align::Right),
-        ("min", Align::Right),
-        ("max", Align::Right),
-    ] {
-        cols.push((h.to_string(), al));
-    }
-    let refs: Vec<(&str, Align)> = cols.iter().map(|(h, a)| (h.as_str(), *a)).collect();
-    let mut t = Table::new(&refs);
-    for c in &d.cells {
-        let mut row: Vec<String> = c.levels.clone();
-        row.extend([
-            c.n.to_string(),
-            num(Some(c.mean), 4),
-            interval(&c.mean_ci, 4),
-            num(c.sd, 3),
-            num(Some(c.median), 4),
-            num(Some(c.trimmed_mean), 4),
-            num(c.winsorized_sd, 3),
-            num(c.skewness, 2),
-            num(c.excess_kurtosis, 2),
-            num(Some(c.min), 4),
-            num(Some(c.max), 4),
-        ]);
-        t.row(row);
-    }
-    writeln!(out, "{}", t.render(2))?;
-    writeln!(out)
-}
-
-fn marginals(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
-    let m = &a.design.marginal_means;
-    let Some(first) = m.first() else {
-        return Ok(());
-    };
-    let level = first.unweighted_ci.or(first.weighted_ci).map(|i| i.level).unwrap_or(0.95);
-    writeln!(
-        out,
-        "Marginal means (unweighted: average of cell means, the Type III target; weighted: average of observations; {}% t intervals, pooled error)",
-        (level * 100.0).round()
-    )?;
-    let mut t = Table::new(&[
-        ("factor", Align::Left),
-        ("level", Align::Left),
-        ("n", Align::Right),
-        ("unweighted", Align::Right),
-        ("CI", Align::Left),
-        ("weighted", Align::Right),
-        ("CI", Align::Left),
-    ]);
-    for r in m {
-        t.row(vec![
-            r.factor.clone(),
-            r.level.clone(),
-            r.n.to_string(),
-            num(Some(r.unweighted_mean), 4),
-            interval(&r.unweighted_ci, 4),
-            num(Some(r.weighted_mean), 4),
-            interval(&r.weighted_ci, 4),
-        ]);
-    }
-    writeln!(out, "{}", t.render(2))?;
-    writeln!(out)
-}
-
-fn diagnostics(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
-    super::diagnostics_text::diagnostics(a, out)
-}
-
-fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
+/// One engine's detail section: its own table (classical ANOVA table, Welch–James
+/// quantities, rank details, …), effect sizes, notes and not-applicable reasons.
+pub(super) fn engine(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
     match &e.details {
         Some(Details::Classical { anova, .. }) => {
             writeln!(out, "Classical ANOVA (Type {} sums of squares, sum-to-zero coding)", roman(anova.ss_type))?;
@@ -322,55 +215,6 @@ fn ats_details(d: &RankAtsDetails, out: &mut dyn Write) -> io::Result<()> {
         t.row(vec![r.levels.join(", "), r.n.to_string(), num(r.value, 3)]);
     }
     writeln!(out, "{}", t.render(4))
-}
-
-fn verdicts(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
-    if a.concordance.is_empty() {
-        return Ok(());
-    }
-    writeln!(out, "Verdicts across engines (Type III hypothesis of each term)")?;
-    let mut t = Table::new(&[
-        ("term", Align::Left),
-        ("verdict", Align::Left),
-        ("majority", Align::Left),
-        ("other side", Align::Left),
-        ("undetermined", Align::Left),
-        ("not applicable", Align::Left),
-    ]);
-    let list = |v: &Vec<String>| {
-        if v.is_empty() {
-            "—".to_string()
-        } else {
-            v.join(", ")
-        }
-    };
-    for c in &a.concordance {
-        let verdict = match c.verdict {
-            Verdict::Holds => "holds",
-            Verdict::NullHolds => "null holds",
-            Verdict::MethodDependent => "method-dependent",
-            Verdict::Undetermined => "undetermined",
-        };
-        t.row(vec![
-            c.term.clone(),
-            verdict.into(),
-            list(&c.agreeing),
-            list(&c.dissenting),
-            list(&c.undetermined),
-            list(&c.not_applicable),
-        ]);
-    }
-    writeln!(out, "{}", t.render(2))?;
-    writeln!(out)
-}
-
-fn footer(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
-    writeln!(
-        out,
-        "Cautions: a small p is not a large or important effect; robust methods do not rescue a flawed design; decisions about people's health or safety need a qualified statistician and the applicable regulations."
-    )?;
-    let r = &a.reproducibility;
-    writeln!(out, "Reproduce: quorum {} · seed {} · {} thread(s) · {}", r.version, r.seed, r.threads, r.command)
 }
 
 fn roman(ss_type: u8) -> &'static str {

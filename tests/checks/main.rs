@@ -12,6 +12,7 @@ mod bootstrap;
 mod calibration;
 mod classical;
 mod cli;
+mod concordance;
 mod descriptives;
 mod diagnostics;
 mod heteroscedastic;

@@ -15,6 +15,7 @@ use quorum::design::{Design, Factor};
 use quorum::engines::bootstrap::{intervals, Bootstrap};
 use quorum::engines::{Context, Engine};
 use quorum::model::Fit;
+use quorum::resample::progress::Visibility;
 use std::hint::black_box;
 
 /// A 2×3 design with `n` observations: exponential-like cells of unequal spread.
@@ -45,7 +46,8 @@ fn bench(c: &mut Criterion) {
     g.sample_size(10);
     g.bench_function("all_intervals", |b| {
         b.iter(|| {
-            let rep = intervals::replicate(black_box(&d), &fit, &forms, 0.2, 1999, DEFAULT_SEED).unwrap();
+            let rep =
+                intervals::replicate(black_box(&d), &fit, &forms, 0.2, 1999, DEFAULT_SEED, Visibility::Hidden).unwrap();
             intervals::summarise(&rep, 0.95).len()
         })
     });
@@ -55,7 +57,9 @@ fn bench(c: &mut Criterion) {
     g.bench_function("all_intervals_1_thread", |b| {
         b.iter(|| {
             one.install(|| {
-                let rep = intervals::replicate(black_box(&d), &fit, &forms, 0.2, 1999, DEFAULT_SEED).unwrap();
+                let rep =
+                    intervals::replicate(black_box(&d), &fit, &forms, 0.2, 1999, DEFAULT_SEED, Visibility::Hidden)
+                        .unwrap();
                 intervals::summarise(&rep, 0.95).len()
             })
         })

@@ -32,6 +32,7 @@ use crate::design::Design;
 use crate::error::{Error, Result};
 use crate::model::wald::{WaldForm, WaldScratch};
 use crate::model::Fit;
+use crate::resample::progress::{Progress, Visibility};
 use crate::resample::{self, mc, mc::McCount, Purpose};
 use crate::results::{
     finite, BootstrapDetails, BootstrapInterval, Details, Effect, EngineResult, IntervalFamily, TermResult, WildTermRow,
@@ -181,7 +182,8 @@ pub fn wild_test(
     let data = wild_data(design, fit, forms, observed, settings)?;
     let active: Vec<usize> = (0..forms.len()).filter(|&t| observed[t].is_some()).collect();
     let b0 = settings.resamples;
-    let (exc, und) = count_range(&data, &active, 0, b0);
+    let progress = Progress::counting("bootstrap test", "resamples", b0, Visibility::from_quiet(settings.quiet));
+    let (exc, und) = count_range(&data, &active, 0, b0, &progress);
     let mut counts: Vec<Option<WildCount>> = vec![None; forms.len()];
     for (k, &t) in active.iter().enumerate() {
         counts[t] = Some(WildCount { count: McCount { resamples: b0, exceedances: exc[k] }, undefined: und[k] });
@@ -200,7 +202,8 @@ pub fn wild_test(
         let Some(next) = mc::next_resamples(current, max) else {
             break;
         };
-        let (exc, und) = count_range(&data, &ambiguous, current, next);
+        progress.extend(next - current);
+        let (exc, und) = count_range(&data, &ambiguous, current, next, &progress);
         for (k, &t) in ambiguous.iter().enumerate() {
             if let Some(w) = counts[t].as_mut() {
                 w.count.resamples = next;
@@ -404,7 +407,13 @@ fn f_star(
 }
 
 /// Exceedances and undefined resamples of `terms` over resamples `start..end`.
-fn count_range(data: &WildData<'_>, terms: &[usize], start: u64, end: u64) -> (Vec<u64>, Vec<u64>) {
+fn count_range(
+    data: &WildData<'_>,
+    terms: &[usize],
+    start: u64,
+    end: u64,
+    progress: &Progress,
+) -> (Vec<u64>, Vec<u64>) {
     let mammen = mammen_weights();
     let per_chunk = resample::par_chunks(start, end, |task| {
         let n_cells = data.ranges.len();
@@ -435,6 +444,7 @@ fn count_range(data: &WildData<'_>, terms: &[usize], start: u64, end: u64) -> (V
                 }
             }
         }
+        progress.advance(task.hi - task.lo);
         (exceed, undefined)
     });
     let mut exceed = vec![0u64; terms.len()];
@@ -567,7 +577,9 @@ impl Engine for Bootstrap {
         } else {
             (vec![None; forms.len()], vec![None; forms.len()])
         };
-        let rep = intervals::replicate(design, fit, ctx.forms, settings.trim, settings.resamples, settings.seed)?;
+        let visibility = Visibility::from_quiet(settings.quiet);
+        let rep =
+            intervals::replicate(design, fit, ctx.forms, settings.trim, settings.resamples, settings.seed, visibility)?;
         let rows = intervals::summarise(&rep, settings.ci_level);
         let sch = scheme(settings.wild_weights);
         let mut wild_rows = Vec::new();

@@ -27,6 +27,7 @@ use quorum::engines::bootstrap::{self, intervals};
 use quorum::engines::{Context, Engine};
 use quorum::model::wald::WaldForm;
 use quorum::model::Fit;
+use quorum::resample::progress::Visibility;
 use quorum::resample::{Purpose, Stream, StreamKey};
 use quorum::results::{BootstrapDetails, BootstrapInterval, Details, EngineResult};
 use serde_json::Value;
@@ -133,7 +134,8 @@ fn independent_draws_agree_within_monte_carlo_error() {
     let forms = SsForms::new(&design.layout, &fit.n, quorum::config::SsType::Three).unwrap();
     let b = rec["resamples"].as_u64().unwrap();
     let seeds = rec["seeds"].as_f64().unwrap();
-    let rep = intervals::replicate(&design, &fit, &forms, 0.2, b, quorum::config::DEFAULT_SEED).unwrap();
+    let rep =
+        intervals::replicate(&design, &fit, &forms, 0.2, b, quorum::config::DEFAULT_SEED, Visibility::Hidden).unwrap();
     let rows = intervals::summarise(&rep, 0.95);
     for want in rec["rows"].as_array().unwrap() {
         let got = row(&rows, want["family"].as_str().unwrap(), want["label"].as_str().unwrap());
@@ -196,7 +198,9 @@ fn coverage(count: usize, resamples: u64) {
             let design = Design::from_cells("y", vec![factor("S", &levels)], &cells).unwrap();
             let fit = Fit::new(&design);
             let forms = SsForms::new(&design.layout, &fit.n, quorum::config::SsType::Three).unwrap();
-            let rep = intervals::replicate(&design, &fit, &forms, 0.2, resamples, 1000 + pair as u64).unwrap();
+            let rep =
+                intervals::replicate(&design, &fit, &forms, 0.2, resamples, 1000 + pair as u64, Visibility::Hidden)
+                    .unwrap();
             let rows = intervals::summarise(&rep, 0.95);
             for (k, label) in ["S=s1", "S=s2"].iter().enumerate() {
                 let r = row(&rows, "cell_mean", label);
@@ -529,7 +533,7 @@ fn reported_monte_carlo_errors_match_the_spread_over_seeds() {
     let mut ends = vec![[Vec::new(), Vec::new(), Vec::new(), Vec::new()]; wanted.len()];
     let mut ses = vec![[0.0f64; 4]; wanted.len()];
     for seed in 0..seeds {
-        let rep = intervals::replicate(&design, &fit, &forms, 0.2, 1999, 500 + seed).unwrap();
+        let rep = intervals::replicate(&design, &fit, &forms, 0.2, 1999, 500 + seed, Visibility::Hidden).unwrap();
         let rows = intervals::summarise(&rep, 0.95);
         for (w, (fam, label)) in wanted.iter().enumerate() {
             let r = row(&rows, fam, label);

@@ -31,6 +31,7 @@ use crate::error::{Error, Result};
 use crate::model::wald::WaldForm;
 use crate::model::Fit;
 use crate::resample::interval::{self, Acceleration, Ends, IntervalProblem};
+use crate::resample::progress::{Progress, Visibility};
 use crate::resample::{self, Purpose, Stream};
 use crate::results::{finite, BootstrapInterval, IntervalEnds, IntervalFamily};
 use crate::robust::{self, TrimmedCell};
@@ -530,6 +531,7 @@ impl Replicates {
 
 /// Draws `resamples` stratified bootstrap resamples (METHODS §8.1) and computes every
 /// statistic on each, plus each statistic's jackknife acceleration (METHODS §8.3).
+/// `visibility` decides whether a progress bar may appear (it never changes a number).
 ///
 /// # Errors
 /// An internal error when a term's hypothesis covariance is not positive definite
@@ -541,6 +543,7 @@ pub fn replicate(
     gamma: f64,
     resamples: u64,
     seed: u64,
+    visibility: Visibility,
 ) -> Result<Replicates> {
     let n_cells = design.n_cells();
     let (specs, mut omitted) = if n_cells <= INTERVAL_CELL_LIMIT {
@@ -586,7 +589,12 @@ pub fn replicate(
     eval.evaluate(&observed, &mut eval.scratch(), &mut estimates);
     let acceleration = jackknife(&eval, &cells, &observed, &estimates)?;
     // Nothing to resample for when every family was left out.
-    let draws = if specs.is_empty() { Vec::new() } else { resample_all(&eval, &cells, resamples, seed) };
+    let draws = if specs.is_empty() {
+        Vec::new()
+    } else {
+        let progress = Progress::counting("bootstrap intervals", "resamples", resamples, visibility);
+        resample_all(&eval, &cells, resamples, seed, &progress)
+    };
     let df_e = fit.df_error as f64;
     let null_scale = layout.terms.iter().map(|t| t.df as f64 / (t.df as f64 + df_e)).collect();
     Ok(Replicates { specs, estimates, draws, acceleration, omitted, location: design.location(), null_scale })
@@ -605,7 +613,13 @@ fn observed_state(cells: &[CellData], gamma: f64) -> CellState {
 }
 
 /// θ* of every statistic for resamples 0..`resamples`, in resample order.
-fn resample_all(eval: &Evaluator<'_>, cells: &[CellData], resamples: u64, seed: u64) -> Vec<Vec<f64>> {
+fn resample_all(
+    eval: &Evaluator<'_>,
+    cells: &[CellData],
+    resamples: u64,
+    seed: u64,
+    progress: &Progress,
+) -> Vec<Vec<f64>> {
     let k = eval.specs.len();
     let max_n = cells.iter().map(CellData::n).max().unwrap_or(0);
     let per_chunk = resample::par_chunks(0, resamples, |task| {
@@ -621,6 +635,7 @@ fn resample_all(eval: &Evaluator<'_>, cells: &[CellData], resamples: u64, seed: 
                 eval.evaluate(&st, &mut scratch, &mut out[at..at + k]);
             }
         }
+        progress.advance(task.hi - task.lo);
         out
     });
     let mut draws: Vec<Vec<f64>> = (0..k).map(|_| Vec::with_capacity(resamples as usize)).collect();
@@ -1041,7 +1056,7 @@ mod tests {
         let d = design(&cells);
         let fit = Fit::new(&d);
         let forms = SsForms::new(&d.layout, &fit.n, SsType::Three).unwrap();
-        let rep = replicate(&d, &fit, &forms, 0.2, 0, 1).unwrap();
+        let rep = replicate(&d, &fit, &forms, 0.2, 0, 1, Visibility::Hidden).unwrap();
         let mut acc = vec![Acceleration::new(); rep.len()];
         for c in 0..cells.len() {
             let mut loo: Vec<Vec<f64>> = vec![Vec::new(); rep.len()];
@@ -1051,7 +1066,7 @@ mod tests {
                 let d1 = design(&smaller);
                 let f1 = Fit::new(&d1);
                 let forms1 = SsForms::new(&d1.layout, &f1.n, SsType::Three).unwrap();
-                let r1 = replicate(&d1, &f1, &forms1, 0.2, 0, 1).unwrap();
+                let r1 = replicate(&d1, &f1, &forms1, 0.2, 0, 1, Visibility::Hidden).unwrap();
                 for (j, v) in r1.estimates.iter().enumerate() {
                     loo[j].push(*v);
                 }

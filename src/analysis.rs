@@ -39,6 +39,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         design.check_testable()?;
     }
     let fit = Fit::new(design);
+    let plot_axes = diagnostics::plotdata::InteractionAxes::resolve(design, &settings.plot_axes)?;
     let summary = DesignSummary {
         outcome: design.outcome.clone(),
         factors: design
@@ -73,6 +74,8 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         }
         _ => Vec::new(),
     };
+    let plot_data =
+        diagnostics::plotdata::compute(design, &fit, &summary.cells, plot_axes, settings.ci_level, &engine_results);
     let diagnostics = diagnosis.diagnostics;
     Ok(Analysis {
         schema: SCHEMA,
@@ -90,6 +93,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
             command: config.command.clone(),
         },
         calibration,
+        plot_data: Some(plot_data),
     })
 }
 

@@ -234,12 +234,26 @@ pub struct OutputArgs {
     /// Output format on standard output.
     #[arg(long, value_enum, default_value_t = FormatArg::Text)]
     pub format: FormatArg,
-    /// Also write a report folder (results.json, report.txt).
+    /// Also write a report folder (report.html, plots/*.svg, results.json, report.txt, CSV tables).
     #[arg(long, value_name = "DIR")]
     pub report: Option<PathBuf>,
     /// No progress bars.
     #[arg(long)]
     pub quiet: bool,
+    /// Factor on the x axis of the interaction plot (default: the factor with most levels).
+    #[arg(long, value_name = "FACTOR")]
+    pub axis: Option<String>,
+    /// Factor drawn as one line per level in the interaction plot (default: the first other factor).
+    #[arg(long, value_name = "FACTOR")]
+    pub series: Option<String>,
+}
+
+impl OutputArgs {
+    /// The interaction plot's axes as given (checked against the design later).
+    pub fn plot_axes(&self) -> quorum::config::PlotAxes {
+        let name = |s: &Option<String>| s.as_ref().map(|s| s.trim().to_string());
+        quorum::config::PlotAxes { axis: name(&self.axis), series: name(&self.series) }
+    }
 }
 
 /// Output formats.
@@ -305,6 +319,7 @@ fn run_config(a: RunArgs, job: Job, command: String) -> Result<Config> {
     let mut settings = settings(&a.engine)?;
     settings.quiet = a.output.quiet;
     settings.calibration = a.calibrate.sims(job == Job::Analyze)?;
+    settings.plot_axes = a.output.plot_axes();
     Ok(Config {
         job,
         data,
@@ -382,6 +397,7 @@ pub(crate) fn settings(e: &EngineArgs) -> Result<Settings> {
             TailApproximation::Off
         },
         calibration: None,
+        plot_axes: quorum::config::PlotAxes::default(),
     })
 }
 

@@ -215,6 +215,8 @@ pub struct Settings {
     pub tail_approximation: TailApproximation,
     /// `analyze --calibrate`: simulated datasets of the calibration on the data (None: off).
     pub calibration: Option<u64>,
+    /// Which factors the interaction plot puts on its x axis and on its lines.
+    pub plot_axes: PlotAxes,
 }
 
 /// How the `permutation` engine builds its permuted data (METHODS §3.1).
@@ -276,6 +278,7 @@ impl Default for Settings {
             permutation_scheme: PermutationScheme::FreedmanLane,
             tail_approximation: TailApproximation::Off,
             calibration: None,
+            plot_axes: PlotAxes::default(),
         }
     }
 }
@@ -347,4 +350,16 @@ impl DropRule {
             DropRule::None => "none",
         }
     }
+}
+
+/// `--axis FACTOR` and `--series FACTOR`: the factor on the x axis of the interaction
+/// plot and the factor drawn as one line per level. Names are checked against the
+/// design when the analysis starts (exit 2 for an unknown or repeated factor); `None`
+/// takes the default of `diagnostics::plotdata::InteractionAxes::resolve`.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct PlotAxes {
+    /// Factor on the x axis.
+    pub axis: Option<String>,
+    /// Factor drawn as one line per level.
+    pub series: Option<String>,
 }

@@ -41,6 +41,10 @@ pub struct Analysis {
     /// shaped like these (absent without the flag).
     #[serde(skip_serializing_if = "Option::is_none")]
     pub calibration: Option<crate::plan::Calibration>,
+    /// What the report's plots draw (per-cell points, quartiles, Q-Q positions, binned
+    /// null distributions). Not part of results.json: it repeats the data row by row.
+    #[serde(skip)]
+    pub plot_data: Option<crate::diagnostics::plotdata::PlotData>,
 }
 
 /// What was read from the input.

@@ -3,6 +3,7 @@
 
 pub mod csv;
 pub mod diagnostics_text;
+pub mod escape;
 pub mod folder;
 pub mod json;
 pub mod style;

@@ -428,7 +428,6 @@ fn interaction(design: &Design, fit: &Fit, cells: &[CellSummary], axes: Interact
     let others: Vec<usize> = (0..k).filter(|&f| f != axes.axis && Some(f) != axes.series).collect();
     let panel_count: usize = others.iter().map(|&f| layout.shape[f]).product();
     let series_levels = axes.series.map(|s| layout.shape[s]).unwrap_or(1);
-    let cell_levels: Vec<Vec<usize>> = (0..design.n_cells()).map(|c| layout.cell_levels(c)).collect();
     let pct = (ci_level * 100.0).round();
     if panel_count <= MAX_PANELS {
         let mut panels = Vec::with_capacity(panel_count);
@@ -479,7 +478,26 @@ fn interaction(design: &Design, fit: &Fit, cells: &[CellSummary], axes: Interact
             interval: format!("{pct}% t interval of each cell mean from the cell's own standard deviation"),
         };
     }
-    // Too many panels: unweighted means over the other factors, pooled error.
+    let (panel, interval) = averaged_means(design, fit, axes, ci_level);
+    Interaction {
+        axis: axes.axis,
+        series: axes.series,
+        panel_factors: Vec::new(),
+        averaged_over: others,
+        panels: vec![panel],
+        interval,
+    }
+}
+
+/// The interaction means averaged over every factor other than the axis and series
+/// (used when one panel per level combination would make more than [`MAX_PANELS`]):
+/// for each (axis, series) level pair, the unweighted mean of its m cell means with the
+/// pooled-error t interval, SE = √(MSE·Σ 1/n_c)/m, df N − C (the marginal-means formula
+/// of `cells::marginal_means`). Returns the panel and the interval in words.
+pub fn averaged_means(design: &Design, fit: &Fit, axes: InteractionAxes, ci_level: f64) -> (InteractionPanel, String) {
+    let layout = &design.layout;
+    let series_levels = axes.series.map(|s| layout.shape[s]).unwrap_or(1);
+    let cell_levels: Vec<Vec<usize>> = (0..design.n_cells()).map(|c| layout.cell_levels(c)).collect();
     let loc = design.location();
     let mse = fit.mse();
     let t = if fit.df_error > 0 { dist::t_quantile(0.5 + ci_level / 2.0, fit.df_error as f64) } else { f64::NAN };
@@ -504,17 +522,11 @@ fn interaction(design: &Design, fit: &Fit, cells: &[CellSummary], axes: Interact
             });
         }
     }
-    Interaction {
-        axis: axes.axis,
-        series: axes.series,
-        panel_factors: Vec::new(),
-        averaged_over: others,
-        panels: vec![InteractionPanel { at: Vec::new(), means }],
-        interval: format!(
-            "{pct}% t interval of each unweighted mean of cell means, pooled error (df {})",
-            fit.df_error
-        ),
-    }
+    let pct = (ci_level * 100.0).round();
+    (
+        InteractionPanel { at: Vec::new(), means },
+        format!("{pct}% t interval of each unweighted mean of cell means, pooled error (df {})", fit.df_error),
+    )
 }
 
 /// The null histograms of every engine that kept its permutation distributions.

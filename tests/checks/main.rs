@@ -18,6 +18,7 @@ mod nist;
 mod permutation;
 mod plan;
 mod rank;
+mod report;
 mod robustness;
 mod sensitivity;
 mod spreadsheet;

@@ -53,11 +53,11 @@ th, td { padding: 4px 10px; border-bottom: 1px solid var(--rule); text-align: le
 th { background: var(--band); font-weight: 600; }
 td.n, th.n { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
 div.scroll { overflow-x: auto; max-width: 100%; }
-td.label { overflow-wrap: anywhere; max-width: 28em; }
+td.label { overflow-wrap: break-word; min-width: 6em; }
 figure { margin: 12px 0 24px; max-width: 100%; }
-figure svg { max-width: 100%; height: auto; border: 1px solid var(--rule); }
+figure svg { width: 100%; max-width: 980px; height: auto; border: 1px solid var(--rule); }
 figcaption { color: var(--muted); font-size: 14px; max-width: 62em; margin-top: 4px; }
-.verdict { display: inline-block; padding: 1px 8px; border-radius: 3px; font-weight: 600; font-size: 13px; border: 1px solid; }
+.verdict { display: inline-block; white-space: nowrap; padding: 1px 8px; border-radius: 3px; font-weight: 600; font-size: 13px; border: 1px solid; }
 .v-holds { background: #dff1ee; border-color: #0f8f7e; }
 .v-null-holds { background: #ececec; border-color: #4d4d4d; }
 .v-method-dependent { background: #fbecd3; border-color: #e3901b; }

@@ -266,37 +266,59 @@ fn draw_point(root: &Area, at: (i32, i32), kind: PointKind) -> DrawResult {
     }
 }
 
-/// Most point labels ("line 17") drawn per plot; more far-out points are counted in the subtitle.
-const MAX_POINT_LABELS: usize = 40;
+/// Most point labels ("line 17") drawn per plot.
+const MAX_POINT_LABELS: usize = 24;
 
-/// Labels far-out points by input line, nudging labels that would overlap.
-fn label_points(root: &Area, mut at: Vec<((i32, i32), u64)>) -> DrawResult {
-    at.sort_by_key(|((x, y), _)| (*x / 40, *y));
-    let mut last: Option<(i32, i32)> = None;
-    for ((x, y), line) in at.into_iter().take(MAX_POINT_LABELS) {
-        let mut ly = y;
-        if let Some((lx, py)) = last {
-            if (x - lx).abs() < 60 && (ly - py).abs() < 14 {
-                ly = py + 14;
-            }
+/// A far-out point that may get a label: pixel position, input line, and how extreme it
+/// is (labels go to the most extreme points first).
+type LabelCandidate = ((i32, i32), u64, f64);
+
+/// Labels far-out points by input line, the most extreme first, skipping a label that
+/// would overlap one already placed (tried right of the point, then left) or leave the
+/// image; at most [`MAX_POINT_LABELS`].
+fn label_points(root: &Area, mut candidates: Vec<LabelCandidate>) -> DrawResult {
+    candidates.sort_by(|a, b| b.2.total_cmp(&a.2).then(a.1.cmp(&b.1)));
+    let (w, h) = root.dim_in_pixel();
+    let (w, h) = (f64::from(w), f64::from(h));
+    let half_h = 8.0;
+    let mut placed: Vec<[f64; 4]> = Vec::new();
+    for ((x, y), line, _) in candidates {
+        if placed.len() >= MAX_POINT_LABELS {
+            break;
         }
         let text = format!("line {line}");
-        let (w, _) = root.dim_in_pixel();
-        let fits_right = f64::from(x + 8) + style::text_width(&text, style::REPORT_TICK_SIZE) < f64::from(w) - 4.0;
-        let (lx, anchor) = if fits_right { (x + 8, HPos::Left) } else { (x - 8, HPos::Right) };
-        root.draw(&Text::new(text, (lx, ly), anchored(style::REPORT_TICK_SIZE, style::FAR_OUT, anchor, VPos::Center)))?;
-        last = Some((x, ly));
+        let tw = style::text_width(&text, style::REPORT_TICK_SIZE);
+        let (x, y) = (f64::from(x), f64::from(y));
+        let right = [x + 8.0, y - half_h, x + 8.0 + tw, y + half_h];
+        let left = [x - 8.0 - tw, y - half_h, x - 8.0, y + half_h];
+        let free = |b: &[f64; 4]| {
+            b[0] >= 2.0
+                && b[2] <= w - 2.0
+                && b[1] >= 0.0
+                && b[3] <= h
+                && placed.iter().all(|p| b[2] <= p[0] || b[0] >= p[2] || b[3] <= p[1] || b[1] >= p[3])
+        };
+        let spot = if free(&right) {
+            Some((right, HPos::Left, x + 8.0))
+        } else if free(&left) {
+            Some((left, HPos::Right, x - 8.0))
+        } else {
+            None
+        };
+        if let Some((b, anchor, lx)) = spot {
+            root.draw(&Text::new(
+                text,
+                (lx.round() as i32, y.round() as i32),
+                anchored(style::REPORT_TICK_SIZE, style::FAR_OUT, anchor, VPos::Center),
+            ))?;
+            placed.push(b);
+        }
     }
     Ok(())
 }
 
-fn far_out_note(count: usize) -> String {
-    if count > MAX_POINT_LABELS {
-        format!("; the first {MAX_POINT_LABELS} of {count} far-out points are labelled")
-    } else {
-        String::new()
-    }
-}
+/// How far-out points are labelled, for subtitles.
+const LABEL_RULE: &str = "most extreme labelled by input line";
 
 // ---------------------------------------------------------------- interaction plot
 
@@ -522,13 +544,11 @@ fn cells(pd: &PlotData) -> Plot {
     let width =
         ((f64::from(y_area) + 2.0 * f64::from(style::MARGIN) + slot * n_cells as f64).ceil() as u32).max(style::WIDTH);
     let label_rows = 18 * k as u32 + 8;
-    let far_total: usize =
-        pd.cells.iter().map(|c| c.points.iter().filter(|p| p.kind == PointKind::FarOut).count()).sum();
     let shown: usize = pd.cells.iter().map(|c| c.points.len()).sum();
     let n_total: usize = pd.cells.iter().map(|c| c.n).sum();
     let mut subtitle = vec![
         "box: quartiles (type 7) and median; whiskers: most extreme values within 1.5 × IQR; +: cell mean".to_string(),
-        format!("▲ beyond 1.5 × IQR; ◆ beyond 3 × IQR (far out), labelled by input line{}", far_out_note(far_total)),
+        format!("▲ beyond 1.5 × IQR; ◆ beyond 3 × IQR (far out), {LABEL_RULE}"),
     ];
     if shown < n_total {
         subtitle.push(format!(
@@ -572,7 +592,7 @@ fn cells(pd: &PlotData) -> Plot {
                 let at = chart.backend_coord(&(x, p.value));
                 draw_point(root, at, p.kind)?;
                 if p.kind == PointKind::FarOut {
-                    labels.push((at, p.line));
+                    labels.push((at, p.line, p.standardized.unwrap_or(p.residual).abs()));
                 }
             }
             let (mx, my) = chart.backend_coord(&(i as f64, c.mean));
@@ -636,13 +656,10 @@ fn draw_box(root: &Area, px: &dyn Fn(f64, f64) -> (i32, i32), x: f64, c: &CellPl
 // ---------------------------------------------------------------- residual plots
 
 fn residual_qq(pd: &PlotData, qq: &QqPlot) -> Plot {
-    let far = qq.points.iter().filter(|p| p.kind == PointKind::FarOut).count();
     let mut subtitle = vec![
         format!("positions: {QQ_POSITIONS}; dashed: the line y = x"),
-        format!(
-            "residuals standardized by √(MSE(1 − 1/nᵢ)); ◆ far out in its cell, labelled by input line{}",
-            far_out_note(far)
-        ),
+        "residuals standardized by √(MSE(1 − 1/nᵢ)), nᵢ the size of the point's cell".to_string(),
+        format!("▲ beyond 1.5 × IQR in its cell; ◆ beyond 3 × IQR, {LABEL_RULE}"),
     ];
     if qq.points.len() < qq.n || qq.excluded > 0 {
         let mut s = format!("{} of {} standardized residuals drawn", qq.points.len(), qq.n);
@@ -661,7 +678,10 @@ fn residual_qq(pd: &PlotData, qq: &QqPlot) -> Plot {
         .points
         .iter()
         .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), p| (a.min(p.standardized), b.max(p.standardized)));
-    let (lo, hi) = padded(xl.min(yl), xh.max(yh));
+    let (x0, x1) = padded(xl, xh);
+    let (y0, y1) = padded(yl.min(xl), yh);
+    // The line y = x where both axes show it.
+    let (lo, hi) = (x0.max(y0), x1.min(y1));
     let title = format!("Normal Q-Q plot of the residuals ({})", escape::xml_chars(&pd.outcome));
     let body = svg(w, h, |root| {
         heading(root, &title, &subtitle)?;
@@ -670,7 +690,7 @@ fn residual_qq(pd: &PlotData, qq: &QqPlot) -> Plot {
             .margin(style::MARGIN)
             .x_label_area_size(style::X_LABEL_AREA)
             .y_label_area_size(style::Y_LABEL_AREA + 8)
-            .build_cartesian_2d(lo..hi, lo..hi)?;
+            .build_cartesian_2d(x0..x1, y0..y1)?;
         chart
             .configure_mesh()
             .light_line_style(TRANSPARENT)
@@ -682,18 +702,20 @@ fn residual_qq(pd: &PlotData, qq: &QqPlot) -> Plot {
             .label_style(font(style::REPORT_TICK_SIZE, style::INK))
             .axis_desc_style(font(style::REPORT_LABEL_SIZE, style::INK))
             .draw()?;
-        chart.draw_series(DashedLineSeries::new(
-            vec![(lo, lo), (hi, hi)],
-            6,
-            4,
-            colour(style::REFERENCE).stroke_width(1),
-        ))?;
+        if hi > lo {
+            chart.draw_series(DashedLineSeries::new(
+                vec![(lo, lo), (hi, hi)],
+                6,
+                4,
+                colour(style::REFERENCE).stroke_width(1),
+            ))?;
+        }
         let mut labels = Vec::new();
         for p in &qq.points {
             let at = chart.backend_coord(&(p.theoretical, p.standardized));
             draw_point(root, at, p.kind)?;
             if p.kind == PointKind::FarOut {
-                labels.push((at, p.line));
+                labels.push((at, p.line, p.standardized.abs()));
             }
         }
         label_points(root, labels)
@@ -711,13 +733,9 @@ fn residual_qq(pd: &PlotData, qq: &QqPlot) -> Plot {
 }
 
 fn residuals_fitted(pd: &PlotData) -> Plot {
-    let far: usize = pd.cells.iter().map(|c| c.points.iter().filter(|p| p.kind == PointKind::FarOut).count()).sum();
     let subtitle = vec![
-        "fitted value: the cell mean; dashed: zero".to_string(),
-        format!(
-            "a fan shape means unequal variances; ◆ far out in its cell, labelled by input line{}",
-            far_out_note(far)
-        ),
+        "fitted value: the cell mean; dashed: zero; a fan shape means unequal variances".to_string(),
+        format!("▲ beyond 1.5 × IQR in its cell; ◆ beyond 3 × IQR, {LABEL_RULE}"),
     ];
     let header = style::MARGIN + 24 + 17 * subtitle.len() as u32 + 6;
     let (w, h) = (style::WIDTH, header + 440);
@@ -762,7 +780,7 @@ fn residuals_fitted(pd: &PlotData) -> Plot {
                 let at = chart.backend_coord(&(c.mean + jitter(j) * spread, p.residual));
                 draw_point(root, at, p.kind)?;
                 if p.kind == PointKind::FarOut {
-                    labels.push((at, p.line));
+                    labels.push((at, p.line, p.standardized.unwrap_or(p.residual).abs()));
                 }
             }
         }

@@ -7,6 +7,7 @@ mod dist;
 mod support;
 
 mod bad_inputs;
+mod browser;
 mod calibration;
 mod classical;
 mod cli;

@@ -373,3 +373,157 @@ fn three_factors_draw_one_panel_per_level_of_the_third() {
     assert!(interaction.svg.contains("C = u") && interaction.svg.contains("C = v"));
     assert_text_fits(&interaction.svg, "threeway interaction.svg");
 }
+
+/// Labels that Markdown could read as syntax at the start of a line, inside a sentence,
+/// or inside a table cell (invented; each aims at one construct).
+fn markdown_hostile_labels() -> Vec<String> {
+    let mut v: Vec<String> = [
+        HOSTILE_FACTOR,
+        HOSTILE_LEVELS[0],
+        HOSTILE_LEVELS[1],
+        "# heading",
+        "- item",
+        "+ item",
+        "1. first",
+        "2) second",
+        "> quoted",
+        "---",
+        "===",
+        "```fence",
+        "~~~",
+        "*em* **strong** _em_ __strong__ ~~struck~~",
+        "[link](http://127.0.0.1/) ![img](x.png) [ref][r] [^note]",
+        "<http://127.0.0.1/> <b>raw</b> <!-- c -->",
+        "`code` a|b \\| c\\d",
+        "&amp; &#60; &lt; a&b",
+        "$x^2$ H~2~O ^sup^",
+        ": defined",
+        "line one\nline two\r\n| broken | row |",
+        "trailing two  ",
+        "tab\there\u{1}\u{7}",
+    ]
+    .iter()
+    .map(|s| s.to_string())
+    .collect();
+    v.extend(hostile_site_levels().iter().map(|s| s.to_string()));
+    v.push(format!("outcome {}", "very-long-name-".repeat(20)));
+    v
+}
+
+/// What a reader should see for `label` in Markdown: the label itself, line breaks as
+/// spaces, characters XML forbids as U+FFFD (the escaping's documented mapping).
+fn markdown_expected(label: &str) -> String {
+    label
+        .chars()
+        .map(|c| match c {
+            '\n' | '\r' => ' ',
+            '\t' => '\t',
+            c if c < ' ' => '\u{FFFD}',
+            c => c,
+        })
+        .collect()
+}
+
+/// Parses `doc` as CommonMark with every extension that adds syntax (GitHub tables,
+/// strikethrough, footnotes, math, definition lists, …; smart punctuation off since it
+/// rewrites quotes), fails on any construct other than paragraphs and tables, and
+/// returns the text of each paragraph and table cell.
+fn markdown_blocks(doc: &str) -> Vec<String> {
+    use pulldown_cmark::{Event, Options, Parser, Tag};
+    let options = Options::all() - Options::ENABLE_SMART_PUNCTUATION;
+    let mut blocks: Vec<String> = Vec::new();
+    for event in Parser::new_ext(doc, options) {
+        match event {
+            Event::Start(Tag::Paragraph | Tag::TableCell) => blocks.push(String::new()),
+            Event::Start(Tag::Table(_) | Tag::TableHead | Tag::TableRow) | Event::End(_) => {}
+            Event::Text(t) => match blocks.last_mut() {
+                Some(b) => b.push_str(&t),
+                None => panic!("text outside a paragraph or cell: {t:?} in\n{doc}"),
+            },
+            other => panic!("Markdown read {other:?} out of an escaped label in\n{doc}"),
+        }
+    }
+    blocks
+}
+
+#[test]
+fn hostile_labels_read_back_literally_from_markdown() {
+    // Outside check: pulldown-cmark (a CommonMark 0.31 parser with the GitHub table
+    // extension) must read every escaped label back as plain text, at the start of a
+    // line, inside a sentence and inside a table cell, with no other construct.
+    use quorum::report::escape::markdown as md;
+    for label in markdown_hostile_labels() {
+        let want = markdown_expected(&label);
+        let e = md(&label);
+        assert!(!e.contains('\n') && !e.contains('\r'), "{e:?}");
+
+        let blocks = markdown_blocks(&format!("{e}\n"));
+        assert_eq!(blocks, vec![want.trim().to_string()], "at line start: {label:?} as {e:?}");
+
+        let blocks = markdown_blocks(&format!("The level «{e}» of factor «{e}».\n"));
+        assert_eq!(blocks, vec![format!("The level «{want}» of factor «{want}».")], "in a sentence: {label:?}");
+
+        let table = format!("| factor | level | n |\n| --- | --- | ---: |\n| {e} | {e} | 7 |\n| x | {e} | 8 |\n");
+        let cells = markdown_blocks(&table);
+        let w = want.trim().to_string();
+        let expect: Vec<String> =
+            ["factor", "level", "n", &w, &w, "7", "x", &w, "8"].iter().map(|s| s.to_string()).collect();
+        assert_eq!(cells, expect, "in a table: {label:?} as {e:?}");
+    }
+}
+
+/// Runs the `quorum` binary in `cwd`; returns (exit code, stdout, stderr).
+fn quorum_bin(args: &[&str], cwd: &Path) -> (i32, String, String) {
+    let out = std::process::Command::new(env!("CARGO_BIN_EXE_quorum"))
+        .args(args)
+        .current_dir(cwd)
+        .stdin(std::process::Stdio::null())
+        .output()
+        .unwrap();
+    (
+        out.status.code().unwrap_or(-1),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn cli_axis_and_series_reach_the_report_folder() {
+    let tmp = tempfile::tempdir().unwrap();
+    let csv = invented_two_by_two("dose", "site", ["high", "low"], ["north", "south", "west"], "score");
+    std::fs::write(tmp.path().join("data.csv"), csv).unwrap();
+    let base = ["analyze", "data.csv", "-y", "score", "-f", "dose,site", "--quiet", "--permutations", "199"];
+
+    let mut args = base.to_vec();
+    args.extend(["--axis", "dose", "--series", "site", "--report", "out"]);
+    let (code, _, err) = quorum_bin(&args, tmp.path());
+    assert_eq!(code, 0, "{err}");
+    let out = tmp.path().join("out");
+    for f in ["report.html", "results.json", "report.txt", ".quorum-report", "plots/interaction.svg", "plots/cells.svg"]
+    {
+        assert!(out.join(f).exists(), "{f} missing");
+    }
+    let interaction = read(&out.join("plots"), "interaction.svg");
+    assert!(interaction.contains("lines: site"), "series named in the plot");
+    let page = read(&out, "report.html");
+    assert!(page.contains("x axis: dose; one line per level of site"), "caption names the layout");
+
+    // The default puts the factor with more levels (site) on the axis.
+    let mut args = base.to_vec();
+    args.extend(["--report", "out"]);
+    assert_eq!(quorum_bin(&args, tmp.path()).0, 0);
+    assert!(read(&out.join("plots"), "interaction.svg").contains("lines: dose"));
+
+    // Unknown or repeated factors are usage errors (exit 2) that name the problem.
+    for (flags, needle) in [
+        (vec!["--axis", "colour"], "colour"),
+        (vec!["--series", "Dose"], "Dose"),
+        (vec!["--axis", "site", "--series", "site"], "same factor"),
+    ] {
+        let mut args = base.to_vec();
+        args.extend(flags);
+        let (code, _, err) = quorum_bin(&args, tmp.path());
+        assert_eq!(code, 2, "{err}");
+        assert!(err.contains(needle), "{err}");
+    }
+}

@@ -273,15 +273,34 @@ const MAX_POINT_LABELS: usize = 24;
 /// is (labels go to the most extreme points first).
 type LabelCandidate = ((i32, i32), u64, f64);
 
+/// A pixel rectangle `[left, top, right, bottom]` that a label must not cover.
+type Obstacle = [f64; 4];
+
+/// Half the side of the square around a drawn point that labels keep clear of.
+const POINT_CLEARANCE: f64 = 5.0;
+
+/// The square around a drawn point that labels keep clear of.
+fn point_obstacle((x, y): (i32, i32)) -> Obstacle {
+    let (x, y) = (f64::from(x), f64::from(y));
+    [x - POINT_CLEARANCE, y - POINT_CLEARANCE, x + POINT_CLEARANCE, y + POINT_CLEARANCE]
+}
+
+/// Whether two rectangles overlap.
+fn overlaps(a: &Obstacle, b: &Obstacle) -> bool {
+    !(a[2] <= b[0] || a[0] >= b[2] || a[3] <= b[1] || a[1] >= b[3])
+}
+
 /// Labels far-out points by input line, the most extreme first, skipping a label that
-/// would overlap one already placed (tried right of the point, then left) or leave the
-/// image; at most [`MAX_POINT_LABELS`].
-fn label_points(root: &Area, mut candidates: Vec<LabelCandidate>) -> DrawResult {
+/// would cover a label already placed, a drawn point or box (`obstacles`), or leave the
+/// image (tried right of the point, then left); at most [`MAX_POINT_LABELS`]. Points in
+/// a dense run therefore go unlabelled rather than get an unreadable label; every
+/// outlying point is listed by line in the page's tables.
+fn label_points(root: &Area, mut candidates: Vec<LabelCandidate>, obstacles: &[Obstacle]) -> DrawResult {
     candidates.sort_by(|a, b| b.2.total_cmp(&a.2).then(a.1.cmp(&b.1)));
     let (w, h) = root.dim_in_pixel();
     let (w, h) = (f64::from(w), f64::from(h));
     let half_h = 8.0;
-    let mut placed: Vec<[f64; 4]> = Vec::new();
+    let mut placed: Vec<Obstacle> = Vec::new();
     for ((x, y), line, _) in candidates {
         if placed.len() >= MAX_POINT_LABELS {
             break;
@@ -296,7 +315,7 @@ fn label_points(root: &Area, mut candidates: Vec<LabelCandidate>) -> DrawResult 
                 && b[2] <= w - 2.0
                 && b[1] >= 0.0
                 && b[3] <= h
-                && placed.iter().all(|p| b[2] <= p[0] || b[0] >= p[2] || b[3] <= p[1] || b[1] >= p[3])
+                && !placed.iter().chain(obstacles).any(|p| overlaps(b, p))
         };
         let spot = if free(&right) {
             Some((right, HPos::Left, x + 8.0))
@@ -585,12 +604,14 @@ fn cells(pd: &PlotData) -> Plot {
             .axis_desc_style(font(style::REPORT_LABEL_SIZE, style::INK))
             .draw()?;
         let mut labels = Vec::new();
+        let mut obstacles = Vec::new();
         for (i, c) in pd.cells.iter().enumerate() {
-            draw_box(root, &|x, y| chart.backend_coord(&(x, y)), i as f64, c)?;
+            obstacles.push(draw_box(root, &|x, y| chart.backend_coord(&(x, y)), i as f64, c)?);
             for (j, p) in c.points.iter().enumerate() {
                 let x = i as f64 + jitter(j) * 0.34;
                 let at = chart.backend_coord(&(x, p.value));
                 draw_point(root, at, p.kind)?;
+                obstacles.push(point_obstacle(at));
                 if p.kind == PointKind::FarOut {
                     labels.push((at, p.line, p.standardized.unwrap_or(p.residual).abs()));
                 }
@@ -598,8 +619,9 @@ fn cells(pd: &PlotData) -> Plot {
             let (mx, my) = chart.backend_coord(&(i as f64, c.mean));
             root.draw(&PathElement::new(vec![(mx - 6, my), (mx + 6, my)], colour(style::INK).stroke_width(2)))?;
             root.draw(&PathElement::new(vec![(mx, my - 6), (mx, my + 6)], colour(style::INK).stroke_width(2)))?;
+            obstacles.push([f64::from(mx - 7), f64::from(my - 7), f64::from(mx + 7), f64::from(my + 7)]);
         }
-        label_points(root, labels)?;
+        label_points(root, labels, &obstacles)?;
         // Cell labels: one row per factor under each slot, factor names on the left.
         let (_, base) = chart.backend_coord(&(0.0, y0));
         for (f, name) in pd.factors.iter().enumerate() {
@@ -634,7 +656,13 @@ fn jitter(j: usize) -> f64 {
     ((j as f64 + 1.0) * 0.618_033_988_749_895).fract() - 0.5
 }
 
-fn draw_box(root: &Area, px: &dyn Fn(f64, f64) -> (i32, i32), x: f64, c: &CellPlot) -> DrawResult {
+/// Draws a cell's box and whiskers; returns the rectangle they cover (for label placement).
+fn draw_box(
+    root: &Area,
+    px: &dyn Fn(f64, f64) -> (i32, i32),
+    x: f64,
+    c: &CellPlot,
+) -> Result<Obstacle, DrawingAreaErrorKind<std::io::Error>> {
     let half = 0.26;
     let ink = colour(style::INK);
     let (l, t) = px(x - half, c.q3);
@@ -650,7 +678,8 @@ fn draw_box(root: &Area, px: &dyn Fn(f64, f64) -> (i32, i32), x: f64, c: &CellPl
         root.draw(&PathElement::new(vec![(cx, edge), (cx, end)], ink.stroke_width(1)))?;
         root.draw(&PathElement::new(vec![(cx - cap, end), (cx + cap, end)], ink.stroke_width(1)))?;
     }
-    Ok(())
+    let (top, bottom) = (wh.min(t).min(wl), wl.max(b).max(wh));
+    Ok([f64::from(l), f64::from(top), f64::from(r), f64::from(bottom)])
 }
 
 // ---------------------------------------------------------------- residual plots
@@ -711,14 +740,16 @@ fn residual_qq(pd: &PlotData, qq: &QqPlot) -> Plot {
             ))?;
         }
         let mut labels = Vec::new();
+        let mut obstacles = Vec::new();
         for p in &qq.points {
             let at = chart.backend_coord(&(p.theoretical, p.standardized));
             draw_point(root, at, p.kind)?;
+            obstacles.push(point_obstacle(at));
             if p.kind == PointKind::FarOut {
                 labels.push((at, p.line, p.standardized.abs()));
             }
         }
-        label_points(root, labels)
+        label_points(root, labels, &obstacles)
     });
     Plot {
         file: "residual-qq.svg".into(),
@@ -775,16 +806,18 @@ fn residuals_fitted(pd: &PlotData) -> Plot {
             colour(style::REFERENCE).stroke_width(1),
         ))?;
         let mut labels = Vec::new();
+        let mut obstacles = Vec::new();
         for c in &pd.cells {
             for (j, p) in c.points.iter().enumerate() {
                 let at = chart.backend_coord(&(c.mean + jitter(j) * spread, p.residual));
                 draw_point(root, at, p.kind)?;
+                obstacles.push(point_obstacle(at));
                 if p.kind == PointKind::FarOut {
                     labels.push((at, p.line, p.standardized.unwrap_or(p.residual).abs()));
                 }
             }
         }
-        label_points(root, labels)
+        label_points(root, labels, &obstacles)
     });
     Plot {
         file: "residuals-fitted.svg".into(),

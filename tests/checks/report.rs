@@ -527,3 +527,72 @@ fn cli_axis_and_series_reach_the_report_folder() {
         assert!(err.contains(needle), "{err}");
     }
 }
+
+/// Estimated boxes `[left, top, right, bottom]` of the `line N` labels of an SVG.
+fn point_label_boxes(svg: &str) -> Vec<(String, [f64; 4])> {
+    let doc = parse_xml(svg, "plot");
+    doc.descendants()
+        .filter(|n| n.has_tag_name("text"))
+        .filter_map(|t| {
+            let text = t.text()?.trim().to_string();
+            if !text.starts_with("line ") {
+                return None;
+            }
+            let x: f64 = t.attribute("x")?.parse().ok()?;
+            let y: f64 = t.attribute("y")?.parse().ok()?;
+            let size: f64 = t.attribute("font-size")?.parse().ok()?;
+            let w = style::text_width(&text, (size * 1.24).round() as u32);
+            let (lo, hi) = match t.attribute("text-anchor") {
+                Some("end") => (x - w, x),
+                Some("middle") => (x - w / 2.0, x + w / 2.0),
+                _ => (x, x + w),
+            };
+            // Vertical extent: generous, one font size above and below the anchor line.
+            Some((text, [lo, y - size, hi, y + size]))
+        })
+        .collect()
+}
+
+#[test]
+fn far_out_labels_never_overlap() {
+    // Invented heavy-tailed data: per cell, 30 values close together and 12 spread far
+    // out on both sides (deterministic), so dozens of far-out points compete for labels.
+    let mut csv = String::from("g,h,y\n");
+    for g in ["a", "b", "c", "d"] {
+        for h in ["x", "y"] {
+            for i in 0..30 {
+                csv.push_str(&format!("{g},{h},{}\n", 10.0 + f64::from(i % 7) * 0.1));
+            }
+            for i in 0..12 {
+                let sign = if i % 2 == 0 { 1.0 } else { -1.0 };
+                csv.push_str(&format!("{g},{h},{}\n", 10.0 + sign * (8.0 + f64::from(i) * 1.5)));
+            }
+        }
+    }
+    let tmp = tempfile::tempdir().unwrap();
+    let a = analyse(tmp.path(), &csv, "y", &["g", "h"], PlotAxes::default());
+    let far: usize = a
+        .plot_data
+        .as_ref()
+        .unwrap()
+        .cells
+        .iter()
+        .map(|c| c.points.iter().filter(|p| p.kind == PointKind::FarOut).count())
+        .sum();
+    assert!(far >= 40, "the scenario needs many far-out points, got {far}");
+    let plots = quorum::report::plots::all(&a);
+    for file in ["cells.svg", "residual-qq.svg", "residuals-fitted.svg"] {
+        let svg = &plots.iter().find(|p| p.file == file).unwrap().svg;
+        let boxes = point_label_boxes(svg);
+        assert!(!boxes.is_empty(), "{file}: no far-out point labelled");
+        for (i, (ta, a)) in boxes.iter().enumerate() {
+            for (tb, b) in &boxes[i + 1..] {
+                // The estimate's vertical extent is generous: compare the middle half.
+                let (a_mid, b_mid) = ((a[1] + a[3]) / 2.0, (b[1] + b[3]) / 2.0);
+                let v_overlap = (a_mid - b_mid).abs() < (a[3] - a[1]) / 2.0;
+                let h_overlap = a[0] < b[2] && b[0] < a[2];
+                assert!(!(v_overlap && h_overlap), "{file}: labels `{ta}` and `{tb}` overlap");
+            }
+        }
+    }
+}

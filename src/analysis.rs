@@ -39,6 +39,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         design.check_testable()?;
     }
     let fit = Fit::new(design);
+    let plot_axes = diagnostics::plotdata::InteractionAxes::resolve(design, &settings.plot_axes)?;
     let summary = DesignSummary {
         outcome: design.outcome.clone(),
         factors: design
@@ -118,6 +119,8 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         Job::Analyze => crate::followup::automatic(design, &fit, settings, &concordance)?,
         _ => Vec::new(),
     };
+    let plot_data =
+        diagnostics::plotdata::compute(design, &fit, &summary.cells, plot_axes, settings.ci_level, &engine_results);
     let diagnostics = diagnosis.diagnostics;
     Ok(Analysis {
         schema: SCHEMA,
@@ -136,6 +139,7 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         },
         calibration,
         primary_engine: primary,
+        plot_data: Some(plot_data),
     })
 }
 

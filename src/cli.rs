@@ -335,7 +335,7 @@ pub struct OutputArgs {
     /// Output format on standard output.
     #[arg(long, value_enum, default_value_t = FormatArg::Text)]
     pub format: FormatArg,
-    /// Also write a report folder (results.json, report.txt, report.md, CSV tables).
+    /// Also write a report folder (report.html, plots/*.svg, report.md, report.txt, results.json, CSV tables).
     #[arg(long, value_name = "DIR")]
     pub report: Option<PathBuf>,
     /// No progress bars.
@@ -344,6 +344,20 @@ pub struct OutputArgs {
     /// Text output: add every engine's details below the summary sections.
     #[arg(long)]
     pub details: bool,
+    /// Factor on the x axis of the interaction plot (default: the factor with most levels).
+    #[arg(long, value_name = "FACTOR")]
+    pub axis: Option<String>,
+    /// Factor drawn as one line per level in the interaction plot (default: the first other factor).
+    #[arg(long, value_name = "FACTOR")]
+    pub series: Option<String>,
+}
+
+impl OutputArgs {
+    /// The interaction plot's axes as given (checked against the design later).
+    pub fn plot_axes(&self) -> quorum::config::PlotAxes {
+        let name = |s: &Option<String>| s.as_ref().map(|s| s.trim().to_string());
+        quorum::config::PlotAxes { axis: name(&self.axis), series: name(&self.series) }
+    }
 }
 
 /// Output formats.
@@ -418,7 +432,14 @@ impl ProbeArgs {
             columns: self.columns,
             reading: self.reading,
             engine: self.engine,
-            output: OutputArgs { format: FormatArg::Text, report: None, quiet: true, details: false },
+            output: OutputArgs {
+                format: FormatArg::Text,
+                report: None,
+                quiet: true,
+                details: false,
+                axis: None,
+                series: None,
+            },
             calibrate: crate::plan_cli::CalibrateArgs { calibrate: false, calibrate_sims: 0 },
         };
         let mut config = run_config(run, Job::Probe, command)?;
@@ -460,6 +481,7 @@ fn run_config(a: RunArgs, job: Job, command: String) -> Result<Config> {
     let mut settings = settings(&a.engine)?;
     settings.quiet = a.output.quiet;
     settings.calibration = a.calibrate.sims(job == Job::Analyze)?;
+    settings.plot_axes = a.output.plot_axes();
     Ok(Config {
         job,
         data,
@@ -541,6 +563,7 @@ pub(crate) fn settings(e: &EngineArgs) -> Result<Settings> {
         adjust: e.adjust.into(),
         wild_weights: e.wild_weights.into(),
         primary,
+        plot_axes: quorum::config::PlotAxes::default(),
     })
 }
 

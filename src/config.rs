@@ -243,6 +243,8 @@ pub struct Settings {
     /// Primary engine fixed in advance (`--primary`, preregistration); None: chosen by
     /// the rules of METHODS §11.2 from the calibrated flags.
     pub primary: Option<String>,
+    /// Which factors the interaction plot puts on its x axis and on its lines.
+    pub plot_axes: PlotAxes,
 }
 
 /// How the `permutation` engine builds its permuted data (METHODS §3.1).
@@ -307,6 +309,7 @@ impl Default for Settings {
             adjust: crate::followup::Adjust::Holm,
             wild_weights: WildWeights::Rademacher,
             primary: None,
+            plot_axes: PlotAxes::default(),
         }
     }
 }
@@ -382,4 +385,16 @@ impl DropRule {
             DropRule::None => "none",
         }
     }
+}
+
+/// `--axis FACTOR` and `--series FACTOR`: the factor on the x axis of the interaction
+/// plot and the factor drawn as one line per level. Names are checked against the
+/// design when the analysis starts (exit 2 for an unknown or repeated factor); `None`
+/// takes the default of `diagnostics::plotdata::InteractionAxes::resolve`.
+#[derive(Debug, Clone, Default, PartialEq, Eq)]
+pub struct PlotAxes {
+    /// Factor on the x axis.
+    pub axis: Option<String>,
+    /// Factor drawn as one line per level.
+    pub series: Option<String>,
 }

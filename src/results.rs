@@ -43,6 +43,10 @@ pub struct Analysis {
     pub calibration: Option<crate::plan::Calibration>,
     /// The primary engine and why (METHODS §11.2); null for `describe`.
     pub primary_engine: Option<PrimaryChoice>,
+    /// What the report's plots draw (per-cell points, quartiles, Q-Q positions, binned
+    /// null distributions). Not part of results.json: it repeats the data row by row.
+    #[serde(skip)]
+    pub plot_data: Option<crate::diagnostics::plotdata::PlotData>,
 }
 
 /// What was read from the input.

@@ -15,6 +15,7 @@ pub mod flags;
 pub mod homogeneity;
 pub mod normality;
 pub mod outliers;
+pub mod plotdata;
 
 use crate::config::DropRule;
 use crate::design::Design;

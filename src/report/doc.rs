@@ -426,6 +426,78 @@ pub fn write_markdown(blocks: &[Block], out: &mut dyn Write) -> io::Result<()> {
     Ok(())
 }
 
+/// One span as HTML: its text escaped ([`super::escape::html`]), its style as an element
+/// or a class of the page's CSS.
+fn html_span(sp: &Span) -> String {
+    let t = super::escape::html(&sp.text);
+    match sp.style {
+        Style::Plain => t,
+        Style::Strong => format!("<strong>{t}</strong>"),
+        Style::Symbol => format!("<em>{t}</em>"),
+        Style::Warn => format!("<span class=\"warn\">{t}</span>"),
+        Style::Muted => format!("<span class=\"muted\">{t}</span>"),
+        Style::Verdict(v) => format!("<span class=\"v-word {}\">{t}</span>", verdict_class(v)),
+    }
+}
+
+/// CSS class of a verdict (the page's badge colours).
+pub fn verdict_class(v: Verdict) -> &'static str {
+    match v {
+        Verdict::Holds => "v-holds",
+        Verdict::NullHolds => "v-null-holds",
+        Verdict::MethodDependent => "v-method-dependent",
+        Verdict::Undetermined => "v-undetermined",
+    }
+}
+
+fn html_inline(l: &Inline) -> String {
+    l.0.iter().map(html_span).collect()
+}
+
+/// Writes `blocks` as HTML fragments for the HTML report: the title is left out (the
+/// page has its own), headings become `h3`/`h4` (the page's sections own `h2`), tables
+/// scroll sideways inside their box, preformatted text stays preformatted. Every text
+/// is escaped, so user strings cannot become markup.
+pub fn write_html(blocks: &[Block], s: &mut String) {
+    use std::fmt::Write as _;
+    for b in blocks {
+        // Writing into a String cannot fail.
+        let _ = match b {
+            Block::Title(_) => Ok(()),
+            Block::Heading(t) => writeln!(s, "<h3>{}</h3>", html_inline(t)),
+            Block::Subheading(t) => writeln!(s, "<h4>{}</h4>", html_inline(t)),
+            Block::Para(t) => writeln!(s, "<p>{}</p>", html_inline(t)),
+            Block::Lines(lines) => {
+                let body: Vec<String> = lines.iter().map(html_inline).collect();
+                writeln!(s, "<p class=\"lines\">{}</p>", body.join("<br/>"))
+            }
+            Block::Bullets(items) => {
+                let body: String = items.iter().map(|i| format!("<li>{}</li>", html_inline(i))).collect();
+                writeln!(s, "<ul>{body}</ul>")
+            }
+            Block::Table(t) => {
+                let class = |a: &Align| match a {
+                    Align::Left => "",
+                    Align::Right => " class=\"n\"",
+                };
+                let head: String =
+                    t.columns.iter().map(|(h, a)| format!("<th{}>{}</th>", class(a), super::escape::html(h))).collect();
+                let mut rows = String::new();
+                for r in &t.rows {
+                    rows.push_str("<tr>");
+                    for (i, (_, a)) in t.columns.iter().enumerate() {
+                        let cell = r.get(i).map(html_inline).unwrap_or_default();
+                        rows.push_str(&format!("<td{}>{cell}</td>", class(a)));
+                    }
+                    rows.push_str("</tr>\n");
+                }
+                writeln!(s, "<div class=\"scroll\"><table class=\"doc\">\n<tr>{head}</tr>\n{rows}</table></div>")
+            }
+            Block::Pre(text) => writeln!(s, "<pre>{}</pre>", super::escape::html(text)),
+        };
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;

@@ -87,8 +87,9 @@ fn same_file(a: &Path, b: &Path) -> bool {
     }
 }
 
-/// Writes the report folder for `analysis`: `results.json`, `report.txt`, `report.md`, the CSV tables
-/// (`terms.csv`, `cells.csv`, `marginal-means.csv`, `verdicts.csv`) and the marker.
+/// Writes the report folder for `analysis`: `results.json`, `report.txt`, `report.md`, the CSV
+/// tables (`terms.csv`, `cells.csv`, `marginal-means.csv`, `verdicts.csv`), the marker, and
+/// ([`write_visual`]) `report.html` with `plots/*.svg`.
 /// Returns the files written.
 ///
 /// # Errors
@@ -111,6 +112,38 @@ pub fn write_report(dir: &Path, analysis: &crate::results::Analysis, input: Opti
         write_atomic(&path, body.as_bytes(), input)?;
         written.push(path);
     }
+    written.extend(write_visual(dir, analysis, input)?);
+    Ok(written)
+}
+
+/// Writes `report.html` and `plots/*.svg` into a prepared report folder; SVG files
+/// left in `plots/` by an earlier run that this run does not write are removed (the
+/// folder carries quorum's marker, so they are quorum's). Returns the files written.
+///
+/// # Errors
+/// As [`write_atomic`]; an I/O error when `plots/` cannot be created or cleaned.
+pub fn write_visual(dir: &Path, analysis: &crate::results::Analysis, input: Option<&Path>) -> Result<Vec<PathBuf>> {
+    let plots = super::plots::all(analysis);
+    let plot_dir = dir.join("plots");
+    fs::create_dir_all(&plot_dir).map_err(|e| io_error(&plot_dir, "creating the folder", e))?;
+    let mut written = Vec::new();
+    for p in &plots {
+        let path = plot_dir.join(&p.file);
+        write_atomic(&path, p.svg.as_bytes(), input)?;
+        written.push(path);
+    }
+    let entries = fs::read_dir(&plot_dir).map_err(|e| io_error(&plot_dir, "reading the folder", e))?;
+    for entry in entries.flatten() {
+        let path = entry.path();
+        let ours = path.extension().is_some_and(|x| x == "svg") && path.is_file();
+        if ours && !written.contains(&path) {
+            fs::remove_file(&path).map_err(|e| io_error(&path, "removing an old plot", e))?;
+        }
+    }
+    let html = super::html::Html { plots: &plots };
+    let path = dir.join("report.html");
+    write_atomic(&path, super::to_string(&html, analysis).as_bytes(), input)?;
+    written.push(path);
     Ok(written)
 }
 

@@ -338,7 +338,7 @@ fn concordance_table(rows: &[Concordance], primary_id: Option<&str>, alpha: f64)
     t
 }
 
-fn concordance(a: &Analysis, b: &mut Vec<Block>) {
+pub(crate) fn concordance(a: &Analysis, b: &mut Vec<Block>) {
     let alpha = paper::alpha(a);
     let primary_id = a.primary_engine.as_ref().and_then(|p| p.engine.as_deref());
     b.push(Block::Heading("Concordance: does each conclusion hold across engines?".into()));
@@ -573,7 +573,7 @@ fn sensitivity(a: &Analysis, b: &mut Vec<Block>) {
     }
 }
 
-fn followups(a: &Analysis, b: &mut Vec<Block>) {
+pub(crate) fn followups(a: &Analysis, b: &mut Vec<Block>) {
     if a.followup.is_empty() {
         return;
     }
@@ -654,7 +654,7 @@ fn tally(calls: &[Call]) -> String {
     s
 }
 
-fn for_the_paper(a: &Analysis, b: &mut Vec<Block>) {
+pub(crate) fn for_the_paper(a: &Analysis, b: &mut Vec<Block>) {
     b.push(Block::Heading("For the paper".into()));
     b.push(Block::Subheading("Results".into()));
     for c in &a.concordance {

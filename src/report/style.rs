@@ -98,6 +98,53 @@ pub const LINE_WIDTH: u32 = 2;
 /// Marker radius, px.
 pub const MARKER_SIZE: u32 = 5;
 
+/// Report plots: title size as given to plotters, which writes `size / 1.24` px
+/// (so 20 shows as about 16 px).
+pub const REPORT_TITLE_SIZE: u32 = 20;
+/// Report plots: axis titles and subtitles (about 13.7 px on the page).
+pub const REPORT_LABEL_SIZE: u32 = 17;
+/// Report plots: tick labels, legends and point labels (about 12.1 px on the page).
+pub const REPORT_TICK_SIZE: u32 = 15;
+/// Light fill of boxes and histogram bars.
+pub const FILL: Rgb = Rgb(0xc9, 0xd6, 0xea);
+/// Points inside the fences (drawn translucent over the boxes).
+pub const POINT: Rgb = Rgb(0x1b, 0x4f, 0x9c);
+/// Points beyond 1.5 × IQR.
+pub const OUTSIDE: Rgb = Rgb(0xe3, 0x90, 0x1b);
+/// Points beyond 3 × IQR and the observed statistic.
+pub const FAR_OUT: Rgb = Rgb(0xc1, 0x43, 0x2e);
+
+/// Width in px that `text` takes on the page at plotters size `size`, estimated without
+/// fonts: the page size is `size / 1.24` px, an average sans-serif glyph is at most
+/// 0.6 em wide for Latin text, and East Asian wide characters and emoji take a full em.
+/// Deliberately generous, so that a label that passes this check fits on screen.
+pub fn text_width(text: &str, size: u32) -> f64 {
+    let em = f64::from(size) / 1.24;
+    text.chars().map(|c| if is_wide(c) { 1.0 } else { 0.6 }).sum::<f64>() * em
+}
+
+fn is_wide(c: char) -> bool {
+    matches!(u32::from(c), 0x1100..=0x115F | 0x2E80..=0xA4CF | 0xAC00..=0xD7A3 | 0xF900..=0xFAFF | 0xFE30..=0xFE4F
+        | 0xFF00..=0xFF60 | 0xFFE0..=0xFFE6 | 0x1F300..=0x1FAFF | 0x20000..=0x3FFFD)
+}
+
+/// `text` shortened with an ellipsis so that [`text_width`] is at most `max_px`.
+pub fn fit_text(text: &str, max_px: f64, size: u32) -> String {
+    if text_width(text, size) <= max_px {
+        return text.to_string();
+    }
+    let mut out = String::new();
+    for c in text.chars() {
+        out.push(c);
+        if text_width(&out, size) + text_width("…", size) > max_px {
+            out.pop();
+            break;
+        }
+    }
+    out.push('…');
+    out
+}
+
 /// The style slot of an engine: its position in DESIGN.md's engine list, so that an
 /// engine keeps its colour and marker across plots; engines not on the list share the
 /// last slots in order of their id's bytes.
@@ -176,5 +223,14 @@ mod tests {
         assert_eq!(engine_index("bootstrap"), 7);
         assert!(engine_index("some-new-engine") < PALETTE.len());
         assert_eq!(Rgb(0x1b, 0x4f, 0x9c).hex(), "#1b4f9c");
+    }
+
+    #[test]
+    fn text_is_shortened_to_fit() {
+        let long = "a very long level label that cannot fit";
+        let short = fit_text(long, 80.0, REPORT_TICK_SIZE);
+        assert!(short.ends_with('…') && text_width(&short, REPORT_TICK_SIZE) <= 80.0);
+        assert_eq!(fit_text("ok", 80.0, REPORT_TICK_SIZE), "ok");
+        assert!(text_width("日本", 15) > text_width("ab", 15));
     }
 }

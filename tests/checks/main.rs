@@ -9,6 +9,7 @@ mod support;
 
 mod bad_inputs;
 mod bootstrap;
+mod browser;
 mod calibration;
 mod classical;
 mod cli;
@@ -21,6 +22,7 @@ mod nist;
 mod permutation;
 mod plan;
 mod rank;
+mod report;
 mod robustness;
 mod sensitivity;
 mod spreadsheet;

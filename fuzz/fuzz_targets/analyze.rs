@@ -1,11 +1,13 @@
-//! Fuzz target: small random designs through every engine.
+//! Fuzz target: small random designs through every engine and every renderer.
 //! Property: never a panic; every p is in [0, 1] or absent with a reason; every
-//! statistic, df and effect is finite when present.
+//! statistic, df and effect is finite when present; every report format (text, JSON,
+//! CSV, Markdown, HTML with its SVG plots) renders.
 #![no_main]
 
 use libfuzzer_sys::fuzz_target;
 use quorum::config::{Config, DataSpec, Format, Job, OutputSpec, Settings, Source};
 use quorum::design::{Design, Factor};
+use quorum::report::Render;
 
 fuzz_target!(|data: &[u8]| {
     if data.len() < 3 {
@@ -50,6 +52,14 @@ fuzz_target!(|data: &[u8]| {
                     }
                 }
             }
+            for format in [Format::Text, Format::Json, Format::Csv, Format::Markdown] {
+                let mut out = Vec::new();
+                quorum::report::renderer(format).render(&a, &mut out).expect("writing to memory");
+            }
+            let plots = quorum::report::plots::all(&a);
+            let mut out = Vec::new();
+            quorum::report::html::Html { plots: &plots }.render(&a, &mut out)
+                .expect("writing to memory");
         }
         Err(e) => assert_eq!(e.exit_code(), 3, "{e}"),
     }

@@ -12,7 +12,7 @@
 use crate::support::*;
 use quorum::config::{Config, Settings};
 use quorum::design::Design;
-use quorum::followup::{self, contrasts, multiplicity, nct, Adjust, ContrastSpec, Probe};
+use quorum::followup::{self, contrasts, multiplicity, Adjust, ContrastSpec, Probe};
 use quorum::model::Fit;
 use quorum::results::{Followup, PairwiseComparison, SimpleEffectTest};
 use serde_json::Value;
@@ -92,12 +92,12 @@ fn noncentral_t_matches_scipy_nct() {
     let fix = fixture("followup");
     for r in fix["nct"]["cdf"].as_array().unwrap() {
         let v = nums(r);
-        let got = nct::nct_cdf(v[0], v[1], v[2]);
+        let got = quorum::dist::nct_cdf(v[0], v[1], v[2]);
         assert_close(got, v[3], 0.0, NCT_ABS, &format!("nct.cdf({}, {}, {})", v[0], v[1], v[2]));
     }
     for r in fix["nct"]["intervals"].as_array().unwrap() {
         let v = nums(r);
-        let (lo, hi) = nct::delta_interval(v[0], v[1], v[2]).expect("interval");
+        let (lo, hi) = quorum::dist::nct_delta_interval(v[0], v[1], v[2]).expect("interval");
         assert_close(lo, v[3], ROOT_REL, 1e-12, "δ lower");
         assert_close(hi, v[4], ROOT_REL, 1e-12, "δ upper");
     }

@@ -329,30 +329,10 @@ pub fn write_text(blocks: &[Block], st: TextStyle, out: &mut dyn Write) -> io::R
 /// leading `#`, `-`, `+`, `=` (headings, lists, setext underlines) and the `.` or `)`
 /// after leading digits (ordered lists). CommonMark lets a backslash escape any ASCII
 /// punctuation and nothing else, so digits themselves are never escaped.
-fn escape_prose(s: &str, at_line_start: bool) -> String {
-    let chars: Vec<char> = s.chars().collect();
-    let leading_digits = if at_line_start { chars.iter().take_while(|c| c.is_ascii_digit()).count() } else { 0 };
-    let mut out = String::with_capacity(s.len());
-    for (i, &ch) in chars.iter().enumerate() {
-        let start_marker = at_line_start
-            && ((i == 0 && matches!(ch, '#' | '-' | '+' | '='))
-                || (leading_digits > 0 && i == leading_digits && matches!(ch, '.' | ')')));
-        if matches!(ch, '\\' | '`' | '*' | '_' | '[' | ']' | '<' | '>' | '|' | '~' | '&') || start_marker {
-            out.push('\\');
-        }
-        if ch == '\n' || ch == '\r' {
-            out.push(' ');
-        } else {
-            out.push(ch);
-        }
-    }
-    out
-}
-
 fn md_inline(line: &Inline, at_line_start: bool) -> String {
     let mut out = String::new();
     for (i, s) in line.0.iter().enumerate() {
-        let text = escape_prose(&s.text, at_line_start && i == 0);
+        let text = super::escape::markdown(&s.text, at_line_start && i == 0);
         // Emphasis markers must hug non-space text: move surrounding spaces outside.
         let trimmed = text.trim();
         let (lead, trail) = if trimmed.is_empty() {
@@ -396,7 +376,7 @@ pub fn write_markdown(blocks: &[Block], out: &mut dyn Write) -> io::Result<()> {
                 writeln!(out)?;
             }
             Block::Table(t) => {
-                let head: Vec<String> = t.columns.iter().map(|(h, _)| escape_prose(h, false)).collect();
+                let head: Vec<String> = t.columns.iter().map(|(h, _)| super::escape::markdown(h, false)).collect();
                 writeln!(out, "| {} |", head.join(" | "))?;
                 let rule: Vec<&str> = t
                     .columns

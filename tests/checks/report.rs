@@ -326,6 +326,21 @@ fn hostile_labels_are_escaped_everywhere() {
     // results.json stays the plain contract (no plot data).
     let json: Value = serde_json::from_str(&read(&out, "results.json")).unwrap();
     assert!(json.get("plot_data").is_none());
+    // report.md: a CommonMark parser (pulldown-cmark) finds no raw HTML and no link or
+    // image anywhere in it, and the labels come back as text.
+    let md = read(&out, "report.md");
+    let mut text = String::new();
+    for event in pulldown_cmark::Parser::new_ext(&md, pulldown_cmark::Options::all()) {
+        use pulldown_cmark::{Event, Tag};
+        match event {
+            Event::Html(h) | Event::InlineHtml(h) => panic!("raw HTML in report.md: {h}"),
+            Event::Start(Tag::Link { .. } | Tag::Image { .. }) => panic!("a link or image in report.md"),
+            Event::Text(t) | Event::Code(t) => text.push_str(&t),
+            _ => {}
+        }
+    }
+    assert!(text.contains(HOSTILE_FACTOR), "factor name read back from report.md");
+    assert!(text.contains(HOSTILE_LEVELS[0]) && text.contains(HOSTILE_LEVELS[1]));
 }
 
 #[test]
@@ -449,26 +464,38 @@ fn markdown_blocks(doc: &str) -> Vec<String> {
 #[test]
 fn hostile_labels_read_back_literally_from_markdown() {
     // Outside check: pulldown-cmark (a CommonMark 0.31 parser with the GitHub table
-    // extension) must read every escaped label back as plain text, at the start of a
-    // line, inside a sentence and inside a table cell, with no other construct.
-    use quorum::report::escape::markdown as md;
+    // extension and every other syntax extension) must read every label back as plain
+    // text from the Markdown the reports write (`doc::write_markdown`, the writer of
+    // report.md): at the start of a paragraph, inside a sentence and inside a table
+    // cell, with no other construct.
+    use quorum::report::doc::{write_markdown, Block, DocTable, Inline};
+    use quorum::report::table::Align;
+    let md = |blocks: &[Block]| {
+        let mut out = Vec::new();
+        write_markdown(blocks, &mut out).unwrap();
+        String::from_utf8(out).unwrap()
+    };
     for label in markdown_hostile_labels() {
         let want = markdown_expected(&label);
-        let e = md(&label);
-        assert!(!e.contains('\n') && !e.contains('\r'), "{e:?}");
 
-        let blocks = markdown_blocks(&format!("{e}\n"));
-        assert_eq!(blocks, vec![want.trim().to_string()], "at line start: {label:?} as {e:?}");
+        let doc = md(&[Block::Para(Inline::plain(label.clone()))]);
+        assert_eq!(markdown_blocks(&doc), vec![want.trim().to_string()], "at line start: {label:?} as {doc:?}");
 
-        let blocks = markdown_blocks(&format!("The level «{e}» of factor «{e}».\n"));
-        assert_eq!(blocks, vec![format!("The level «{want}» of factor «{want}».")], "in a sentence: {label:?}");
+        let doc = md(&[Block::Para(Inline::plain(format!("The level «{label}» of factor «{label}».")))]);
+        assert_eq!(
+            markdown_blocks(&doc),
+            vec![format!("The level «{want}» of factor «{want}».")],
+            "in a sentence: {label:?}"
+        );
 
-        let table = format!("| factor | level | n |\n| --- | --- | ---: |\n| {e} | {e} | 7 |\n| x | {e} | 8 |\n");
-        let cells = markdown_blocks(&table);
+        let mut t = DocTable::new(&[("factor", Align::Left), ("level", Align::Left), ("n", Align::Right)]);
+        t.row(vec![Inline::plain(label.clone()), Inline::plain(label.clone()), Inline::plain("7")]);
+        t.row(vec![Inline::plain("x"), Inline::plain(label.clone()), Inline::plain("8")]);
+        let doc = md(&[Block::Table(t)]);
         let w = want.trim().to_string();
         let expect: Vec<String> =
             ["factor", "level", "n", &w, &w, "7", "x", &w, "8"].iter().map(|s| s.to_string()).collect();
-        assert_eq!(cells, expect, "in a table: {label:?} as {e:?}");
+        assert_eq!(markdown_blocks(&doc), expect, "in a table: {label:?} as {doc:?}");
     }
 }
 

@@ -58,6 +58,23 @@ fn analyze(bytes: &[u8]) -> usize {
     a.engines.len()
 }
 
+/// The analysis without the diagnostics: read, design, fit, the cell table and marginal
+/// means, and the classical engine (the "classical engine, cell table").
+fn analyze_core(bytes: &[u8]) -> usize {
+    use quorum::engines::{classical::Classical, Context, Engine};
+    let spec = spec();
+    let obs = quorum::data::parse(bytes, &spec, "bench.csv", &Location::file("bench.csv")).unwrap();
+    let design = quorum::design::Design::build(&obs, &spec).unwrap();
+    let fit = quorum::model::Fit::new(&design);
+    let settings = Settings { engines: vec!["classical".into()], quiet: true, ..Settings::default() };
+    let cells = quorum::diagnostics::cells::cell_table(&design, settings.trim, settings.ci_level);
+    let marginals = quorum::diagnostics::cells::marginal_means(&design, &fit, settings.ci_level);
+    let forms = quorum::design::forms::SsForms::new(&design.layout, &fit.n, SsType::Three).unwrap();
+    let ctx = Context { design: &design, fit: &fit, forms: &forms, settings: &settings };
+    let r = Classical.run(&ctx).unwrap();
+    cells.len() + marginals.len() + r.terms.len()
+}
+
 fn bench(c: &mut Criterion) {
     let mut g = c.benchmark_group("analyze_3x4");
     g.sample_size(10);
@@ -65,6 +82,9 @@ fn bench(c: &mut Criterion) {
         let bytes = make_csv(n);
         g.bench_with_input(BenchmarkId::new("parse_outcome_only", n), &bytes, |b, bytes| {
             b.iter(|| parse_outcome_only(black_box(bytes)))
+        });
+        g.bench_with_input(BenchmarkId::new("core_classical_cell_table", n), &bytes, |b, bytes| {
+            b.iter(|| analyze_core(black_box(bytes)))
         });
         g.bench_with_input(BenchmarkId::new("analyze_classical", n), &bytes, |b, bytes| {
             b.iter(|| analyze(black_box(bytes)))

@@ -321,6 +321,20 @@ pub enum Decision {
 }
 
 impl Decision {
+    /// The decision as a word for reports: `reject`, `retain`, `undetermined`.
+    pub fn word(self) -> &'static str {
+        match self {
+            Decision::Reject => "reject",
+            Decision::Retain => "retain",
+            Decision::Undetermined => "undetermined",
+        }
+    }
+
+    /// [`Decision::word`] of an optional decision, `none` where there is none.
+    pub fn word_or(d: Option<Decision>, none: &'static str) -> &'static str {
+        d.map_or(none, Decision::word)
+    }
+
     /// Reject when p < α, else retain.
     pub fn from_p(p: f64, alpha: f64) -> Decision {
         if p < alpha {
@@ -616,6 +630,19 @@ pub enum Verdict {
     MethodDependent,
     /// No engine could decide.
     Undetermined,
+}
+
+impl Verdict {
+    /// The verdict as words for reports: `holds`, `null holds`, `method-dependent`,
+    /// `undetermined`.
+    pub fn words(self) -> &'static str {
+        match self {
+            Verdict::Holds => "holds",
+            Verdict::NullHolds => "null holds",
+            Verdict::MethodDependent => "method-dependent",
+            Verdict::Undetermined => "undetermined",
+        }
+    }
 }
 
 /// Concordance row of one term.

@@ -273,7 +273,7 @@ fn variant_sentence(row: &Concordance, vr: &Concordance, lines: &[u64], inputs: 
         }
     }
     let verdicts = if vr.verdict != row.verdict {
-        format!("; the verdict becomes {}", verdict_words(vr.verdict))
+        format!("; the verdict becomes {}", Verdict::words(vr.verdict))
     } else {
         String::new()
     };
@@ -295,15 +295,6 @@ fn variant_sentence(row: &Concordance, vr: &Concordance, lines: &[u64], inputs: 
         _ => String::new(),
     };
     format!("{where_}: {}{verdicts}{joined}", changes.join(", "))
-}
-
-fn verdict_words(v: Verdict) -> &'static str {
-    match v {
-        Verdict::Holds => "holds",
-        Verdict::NullHolds => "null holds",
-        Verdict::MethodDependent => "method-dependent",
-        Verdict::Undetermined => "undetermined",
-    }
 }
 
 /// Fills `explanations` of every row.

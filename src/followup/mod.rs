@@ -283,8 +283,31 @@ pub fn automatic(
 ) -> Result<Vec<Followup>> {
     let wanted: Vec<&Concordance> =
         concordance.iter().filter(|c| matches!(c.verdict, Verdict::Holds | Verdict::MethodDependent)).collect();
-    if wanted.is_empty() || design.n_cells() > DENSE_CELL_LIMIT {
+    if wanted.is_empty() {
         return Ok(Vec::new());
+    }
+    if design.n_cells() > DENSE_CELL_LIMIT {
+        // Said in the results rather than left out silently.
+        let why = format!(
+            "not run: follow-ups use dense contrast matrices and are limited to {DENSE_CELL_LIMIT} cells; the design has {}",
+            design.n_cells()
+        );
+        return Ok(wanted
+            .iter()
+            .map(|c| Followup {
+                effect: c.term.clone(),
+                at: Vec::new(),
+                tests: Vec::new(),
+                pairwise: Vec::new(),
+                origin: format!(
+                    "term {} is {}",
+                    c.term,
+                    if c.verdict == Verdict::Holds { "holds" } else { "method-dependent" }
+                ),
+                adjustment: settings.adjust.id().to_string(),
+                notes: vec![why.clone()],
+            })
+            .collect());
     }
     let probe = Probe::new(design, fit, settings)?;
     let mut out = Vec::new();

@@ -41,13 +41,7 @@ fn row(cells: &[String]) -> String {
 }
 
 fn decision(d: Option<Decision>) -> String {
-    match d {
-        Some(Decision::Reject) => "reject",
-        Some(Decision::Retain) => "retain",
-        Some(Decision::Undetermined) => "undetermined",
-        None => "",
-    }
-    .to_string()
+    Decision::word_or(d, "").to_string()
 }
 
 /// One row per engine and term.

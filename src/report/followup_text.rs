@@ -11,12 +11,7 @@ use crate::results::{Decision, Effect, Followup};
 use std::io::{self, Write};
 
 fn decision(d: Option<Decision>) -> &'static str {
-    match d {
-        Some(Decision::Reject) => "reject",
-        Some(Decision::Retain) => "retain",
-        Some(Decision::Undetermined) => "undetermined",
-        None => "—",
-    }
+    Decision::word_or(d, "—")
 }
 
 /// Degrees of freedom: whole numbers without decimals, others to 4 significant digits.

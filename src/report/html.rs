@@ -18,7 +18,7 @@ use super::escape::html as esc;
 use super::plots::Plot;
 use super::table::{num, p_value};
 use super::Render;
-use crate::results::{Analysis, Concordance, Decision, Details, EngineResult, Interval, Verdict};
+use crate::results::{Analysis, Concordance, Decision, Details, EngineResult, Verdict};
 use std::fmt::Write as _;
 use std::io::{self, Write};
 
@@ -230,19 +230,7 @@ impl Html<'_> {
                 for l in &c.levels {
                     write!(s, "<td class=\"label\">{}</td>", esc(l))?;
                 }
-                for v in [
-                    c.n.to_string(),
-                    num(Some(c.mean), 4),
-                    interval(&c.mean_ci, 4),
-                    num(c.sd, 3),
-                    num(Some(c.median), 4),
-                    num(Some(c.trimmed_mean), 4),
-                    num(c.winsorized_sd, 3),
-                    num(c.skewness, 2),
-                    num(c.excess_kurtosis, 2),
-                    num(Some(c.min), 4),
-                    num(Some(c.max), 4),
-                ] {
+                for v in super::sections::cell_numbers(c) {
                     write!(s, "<td class=\"n\">{}</td>", esc(&v))?;
                 }
                 writeln!(s, "</tr>")?;
@@ -263,9 +251,9 @@ impl Html<'_> {
                     esc(&m.level),
                     m.n,
                     num(Some(m.unweighted_mean), 4),
-                    interval(&m.unweighted_ci, 4),
+                    super::sections::interval(&m.unweighted_ci, 4),
                     num(Some(m.weighted_mean), 4),
-                    interval(&m.weighted_ci, 4)
+                    super::sections::interval(&m.weighted_ci, 4)
                 )?;
             }
             writeln!(s, "</table></div>")?;
@@ -659,13 +647,6 @@ fn pct(x: f64) -> String {
     num(Some((x * 1000.0).round() / 10.0), 3).trim_end_matches(".0").to_string()
 }
 
-fn interval(i: &Option<Interval>, sig: usize) -> String {
-    match i {
-        Some(i) => format!("[{}, {}]", num(i.low, sig), num(i.high, sig)),
-        None => "—".into(),
-    }
-}
-
 fn plus_minus(v: Option<f64>, se: Option<f64>) -> String {
     match (v, se) {
         (Some(v), Some(e)) => format!("{} ± {}", num(Some(v), 3), num(Some(e), 2)),
@@ -692,18 +673,8 @@ fn rule_name(id: &str) -> &'static str {
     }
 }
 
-fn verdict_name(v: Verdict) -> (&'static str, &'static str) {
-    match v {
-        Verdict::Holds => ("holds", "v-holds"),
-        Verdict::NullHolds => ("null holds", "v-null-holds"),
-        Verdict::MethodDependent => ("method-dependent", "v-method-dependent"),
-        Verdict::Undetermined => ("undetermined", "v-undetermined"),
-    }
-}
-
 fn badge(v: Verdict) -> String {
-    let (name, class) = verdict_name(v);
-    format!("<span class=\"verdict {class}\">{name}</span>")
+    format!("<span class=\"verdict {}\">{}</span>", super::doc::verdict_class(v), v.words())
 }
 
 fn list(v: &[String]) -> String {
@@ -743,12 +714,7 @@ fn engine_table(e: &EngineResult, s: &mut String) -> W {
             )?;
             continue;
         }
-        let decision = match r.decision {
-            Some(Decision::Reject) => "reject",
-            Some(Decision::Retain) => "retain",
-            Some(Decision::Undetermined) => "undetermined",
-            None => "—",
-        };
+        let decision = Decision::word_or(r.decision, "—");
         let mc = match &r.mc {
             Some(m) if m.exact => format!("exact: all {} rearrangements ({})", m.resamples, esc(&m.scheme)),
             Some(m) => format!(

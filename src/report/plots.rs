@@ -266,6 +266,41 @@ fn draw_point(root: &Area, at: (i32, i32), kind: PointKind) -> DrawResult {
     }
 }
 
+/// A chart with numeric axes over `x` and `y`, grid, ticks and axis names, in the
+/// report's style (the residual plots).
+fn scatter_axes<'a, 'b>(
+    area: &'a Area<'b>,
+    x: (f64, f64),
+    y: (f64, f64),
+    x_desc: &str,
+    y_desc: &str,
+) -> Result<
+    ChartContext<
+        'a,
+        SVGBackend<'b>,
+        Cartesian2d<plotters::coord::types::RangedCoordf64, plotters::coord::types::RangedCoordf64>,
+    >,
+    DrawingAreaErrorKind<std::io::Error>,
+> {
+    let mut chart = ChartBuilder::on(area)
+        .margin(style::MARGIN)
+        .x_label_area_size(style::X_LABEL_AREA)
+        .y_label_area_size(style::Y_LABEL_AREA + 8)
+        .build_cartesian_2d(x.0..x.1, y.0..y.1)?;
+    chart
+        .configure_mesh()
+        .light_line_style(TRANSPARENT)
+        .bold_line_style(colour(style::GRID))
+        .x_label_formatter(&|v| tick(*v))
+        .y_label_formatter(&|v| tick(*v))
+        .x_desc(x_desc)
+        .y_desc(y_desc)
+        .label_style(font(style::REPORT_TICK_SIZE, style::INK))
+        .axis_desc_style(font(style::REPORT_LABEL_SIZE, style::INK))
+        .draw()?;
+    Ok(chart)
+}
+
 /// Most point labels ("line 17") drawn per plot.
 const MAX_POINT_LABELS: usize = 24;
 
@@ -715,22 +750,7 @@ fn residual_qq(pd: &PlotData, qq: &QqPlot) -> Plot {
     let body = svg(w, h, |root| {
         heading(root, &title, &subtitle)?;
         let area = root.margin(header, style::MARGIN, 0, 0);
-        let mut chart = ChartBuilder::on(&area)
-            .margin(style::MARGIN)
-            .x_label_area_size(style::X_LABEL_AREA)
-            .y_label_area_size(style::Y_LABEL_AREA + 8)
-            .build_cartesian_2d(x0..x1, y0..y1)?;
-        chart
-            .configure_mesh()
-            .light_line_style(TRANSPARENT)
-            .bold_line_style(colour(style::GRID))
-            .x_label_formatter(&|v| tick(*v))
-            .y_label_formatter(&|v| tick(*v))
-            .x_desc("normal quantile")
-            .y_desc("standardized residual")
-            .label_style(font(style::REPORT_TICK_SIZE, style::INK))
-            .axis_desc_style(font(style::REPORT_LABEL_SIZE, style::INK))
-            .draw()?;
+        let mut chart = scatter_axes(&area, (x0, x1), (y0, y1), "normal quantile", "standardized residual")?;
         if hi > lo {
             chart.draw_series(DashedLineSeries::new(
                 vec![(lo, lo), (hi, hi)],
@@ -783,22 +803,7 @@ fn residuals_fitted(pd: &PlotData) -> Plot {
     let body = svg(w, h, |root| {
         heading(root, &title, &subtitle)?;
         let area = root.margin(header, style::MARGIN, 0, 0);
-        let mut chart = ChartBuilder::on(&area)
-            .margin(style::MARGIN)
-            .x_label_area_size(style::X_LABEL_AREA)
-            .y_label_area_size(style::Y_LABEL_AREA + 8)
-            .build_cartesian_2d(x0..x1, y0..y1)?;
-        chart
-            .configure_mesh()
-            .light_line_style(TRANSPARENT)
-            .bold_line_style(colour(style::GRID))
-            .x_label_formatter(&|v| tick(*v))
-            .y_label_formatter(&|v| tick(*v))
-            .x_desc("fitted value (cell mean)")
-            .y_desc("residual")
-            .label_style(font(style::REPORT_TICK_SIZE, style::INK))
-            .axis_desc_style(font(style::REPORT_LABEL_SIZE, style::INK))
-            .draw()?;
+        let mut chart = scatter_axes(&area, (x0, x1), (y0, y1), "fitted value (cell mean)", "residual")?;
         chart.draw_series(DashedLineSeries::new(
             vec![(x0, 0.0), (x1, 0.0)],
             6,

@@ -61,11 +61,29 @@ fn title(a: &Analysis) -> Block {
     )))
 }
 
-fn interval(i: &Option<Interval>, sig: usize) -> String {
+/// `[low, high]` at `sig` significant digits, `—` without an interval.
+pub(crate) fn interval(i: &Option<Interval>, sig: usize) -> String {
     match i {
         Some(i) => format!("[{}, {}]", num(i.low, sig), num(i.high, sig)),
         None => "—".into(),
     }
+}
+
+/// The numbers of one row of the cells table, in column order (after the levels).
+pub(crate) fn cell_numbers(c: &crate::results::CellSummary) -> [String; 11] {
+    [
+        c.n.to_string(),
+        num(Some(c.mean), 4),
+        interval(&c.mean_ci, 4),
+        num(c.sd, 3),
+        num(Some(c.median), 4),
+        num(Some(c.trimmed_mean), 4),
+        num(c.winsorized_sd, 3),
+        num(c.skewness, 2),
+        num(c.excess_kurtosis, 2),
+        num(Some(c.min), 4),
+        num(Some(c.max), 4),
+    ]
 }
 
 fn data_and_design(a: &Analysis, b: &mut Vec<Block>) {
@@ -126,19 +144,7 @@ fn data_and_design(a: &Analysis, b: &mut Vec<Block>) {
     let mut t = DocTable { columns: cols, rows: Vec::new() };
     for c in &d.cells {
         let mut row: Vec<Inline> = c.levels.iter().map(|l| Inline::plain(l.clone())).collect();
-        for s in [
-            c.n.to_string(),
-            num(Some(c.mean), 4),
-            interval(&c.mean_ci, 4),
-            num(c.sd, 3),
-            num(Some(c.median), 4),
-            num(Some(c.trimmed_mean), 4),
-            num(c.winsorized_sd, 3),
-            num(c.skewness, 2),
-            num(c.excess_kurtosis, 2),
-            num(Some(c.min), 4),
-            num(Some(c.max), 4),
-        ] {
+        for s in cell_numbers(c) {
             row.push(Inline::plain(s));
         }
         t.row(row);
@@ -258,20 +264,11 @@ fn decision_mark(d: Option<Decision>) -> &'static str {
     }
 }
 
-fn verdict_words(v: Verdict) -> &'static str {
-    match v {
-        Verdict::Holds => "holds",
-        Verdict::NullHolds => "null holds",
-        Verdict::MethodDependent => "method-dependent",
-        Verdict::Undetermined => "undetermined",
-    }
-}
-
 /// The verdict cell: word, rejecting/deciding engines, and the borderline (`≈α`) and
 /// direction-conflict (`⇄`) markers.
 fn verdict_cell(c: &Concordance) -> Inline {
     let m = c.rejecting.len() + c.retaining.len();
-    let mut l = Inline::new().add(Style::Verdict(c.verdict), verdict_words(c.verdict));
+    let mut l = Inline::new().add(Style::Verdict(c.verdict), Verdict::words(c.verdict));
     if m > 0 {
         l = l.text(format!(" {}/{m}", c.rejecting.len()));
     }
@@ -561,8 +558,8 @@ fn sensitivity(a: &Analysis, b: &mut Vec<Block>) {
                 changes.push(Inline::plain(format!(
                     "{}: {} with all rows, {} without the points",
                     c.term,
-                    verdict_words(c.verdict),
-                    verdict_words(v.verdict)
+                    Verdict::words(c.verdict),
+                    Verdict::words(v.verdict)
                 )));
             }
         }
@@ -605,6 +602,9 @@ pub(crate) fn followups(a: &Analysis, b: &mut Vec<Block>) {
         }));
         for (pair, calls) in pairs {
             items.push(Inline::plain(format!("{pair}: {}", tally(&calls))));
+        }
+        if items.is_empty() {
+            items.extend(f.notes.iter().map(|n| Inline::new().add(Style::Muted, n.clone())));
         }
         if !items.is_empty() {
             b.push(Block::Bullets(items));

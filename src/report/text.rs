@@ -148,12 +148,7 @@ fn generic_tests(e: &EngineResult, out: &mut dyn Write) -> io::Result<()> {
         ("Monte Carlo", Align::Left),
     ]);
     for r in &e.terms {
-        let decision = match r.decision {
-            Some(Decision::Reject) => "reject",
-            Some(Decision::Retain) => "retain",
-            Some(Decision::Undetermined) => "undetermined",
-            None => "—",
-        };
+        let decision = Decision::word_or(r.decision, "—");
         let mc = match &r.mc {
             Some(m) if m.exact => format!("exact, {} rearrangements", m.resamples),
             Some(m) => format!("B = {}, 99% CI [{}, {}]", m.resamples, num(Some(m.ci_low), 3), num(Some(m.ci_high), 3)),
@@ -261,12 +256,7 @@ fn trimmed_tests(
     for r in &e.terms {
         let w = rows.iter().find(|w| w.term == r.term);
         let get = |f: fn(&WelchJamesRow) -> Option<f64>| w.and_then(f);
-        let decision = match r.decision {
-            Some(Decision::Reject) => "reject",
-            Some(Decision::Retain) => "retain",
-            Some(Decision::Undetermined) => "undetermined",
-            None => "—",
-        };
+        let decision = Decision::word_or(r.decision, "—");
         let mut row = vec![
             r.term.clone(),
             num(get(|w| w.q_stat), 4),

@@ -645,3 +645,34 @@ fn simple_effects_type_one_large() {
         println!("{label}: {rates:?}");
     }
 }
+
+#[test]
+fn automatic_follow_ups_above_the_dense_limit_say_why_they_did_not_run() {
+    // 7⁴ = 2401 cells (above the 2048-cell dense limit), two invented observations per
+    // cell with a large effect of A, so A holds under the classical engine.
+    use quorum::design::forms::{SsForms, DENSE_CELL_LIMIT};
+    use quorum::design::Factor;
+    use quorum::engines::{classical::Classical, Context, Engine};
+    let names = ["A", "B", "C", "D"];
+    let factors: Vec<Factor> = names
+        .iter()
+        .map(|n| Factor { name: (*n).into(), levels: (1..=7).map(|l| format!("{n}{l}")).collect(), measured: false })
+        .collect();
+    let cells: Vec<Vec<f64>> =
+        (0..2401).map(|c| vec![(c / 343) as f64 * 10.0, (c / 343) as f64 * 10.0 + 1.0]).collect();
+    let design = Design::from_cells("y", factors, &cells).unwrap();
+    assert!(design.n_cells() > DENSE_CELL_LIMIT);
+    let fit = Fit::new(&design);
+    let settings = Settings { engines: vec!["classical".into()], quiet: true, ..Settings::default() };
+    let forms = SsForms::new(&design.layout, &fit.n, quorum::config::SsType::Three).unwrap();
+    let ctx = Context { design: &design, fit: &fit, forms: &forms, settings: &settings };
+    let classical = Classical.run(&ctx).unwrap();
+    let terms: Vec<String> = design.terms().iter().map(|t| t.name.clone()).collect();
+    let concordance = quorum::concordance::verdicts(&terms, &[classical]);
+    let out = followup::automatic(&design, &fit, &settings, &concordance).unwrap();
+    assert!(!out.is_empty(), "the skipped follow-ups are listed");
+    for f in &out {
+        assert!(f.tests.is_empty() && f.pairwise.is_empty());
+        assert!(f.notes.iter().any(|n| n.contains("2048 cells") && n.contains("2401")), "{:?}", f.notes);
+    }
+}

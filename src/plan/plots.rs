@@ -22,7 +22,7 @@ fn engine_colour(id: &str) -> RGBColor {
     colour(style::PALETTE[style::engine_index(id)])
 }
 
-/// Draws a marker at a pixel position.
+/// Draws a marker at a pixel position (the report's markers, at the plan's size).
 fn marker<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     at: (i32, i32),
@@ -30,28 +30,7 @@ fn marker<DB: DrawingBackend>(
     c: RGBColor,
     open: bool,
 ) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
-    let r = style::MARKER_SIZE as i32;
-    let fill = if open { c.stroke_width(2) } else { c.filled() };
-    let (x, y) = at;
-    match m {
-        Marker::Circle => area.draw(&Circle::new(at, r, fill)),
-        Marker::Ring => area.draw(&Circle::new(at, r, c.stroke_width(2))),
-        Marker::Square => area.draw(&Rectangle::new([(x - r, y - r), (x + r, y + r)], fill)),
-        Marker::OpenSquare => area.draw(&Rectangle::new([(x - r, y - r), (x + r, y + r)], c.stroke_width(2))),
-        Marker::Triangle => {
-            area.draw(&Polygon::new(vec![(x, y - r - 1), (x - r - 1, y + r), (x + r + 1, y + r)], fill))
-        }
-        Marker::TriangleDown => {
-            area.draw(&Polygon::new(vec![(x, y + r + 1), (x - r - 1, y - r), (x + r + 1, y - r)], fill))
-        }
-        Marker::Diamond => {
-            area.draw(&Polygon::new(vec![(x, y - r - 2), (x + r + 1, y), (x, y + r + 2), (x - r - 1, y)], fill))
-        }
-        Marker::Cross => {
-            area.draw(&PathElement::new(vec![(x - r, y - r), (x + r, y + r)], c.stroke_width(2)))?;
-            area.draw(&PathElement::new(vec![(x - r, y + r), (x + r, y - r)], c.stroke_width(2)))
-        }
-    }
+    crate::report::plots::draw_marker(area, at, m, c, style::MARKER_SIZE as i32, open)
 }
 
 fn text_style(size: u32) -> TextStyle<'static> {

@@ -78,9 +78,25 @@ fn svg(w: u32, h: u32, draw: impl FnOnce(&Area) -> DrawResult) -> String {
 
 /// Draws a marker centred at a pixel position.
 pub fn marker(area: &Area, at: (i32, i32), m: Marker, c: RGBColor, r: i32) -> DrawResult {
+    draw_marker(area, at, m, c, r, false)
+}
+
+/// Draws marker `m` of radius `r` at a pixel position on any backend; `open` draws the
+/// filled shapes as outlines (the plan's plots mark rates outside Bradley's band so).
+///
+/// # Errors
+/// The backend's drawing errors.
+pub fn draw_marker<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    at: (i32, i32),
+    m: Marker,
+    c: RGBColor,
+    r: i32,
+    open: bool,
+) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
     let (x, y) = at;
-    let fill = c.filled();
     let line = c.stroke_width(2);
+    let fill = if open { line } else { c.filled() };
     match m {
         Marker::Circle => area.draw(&Circle::new(at, r, fill)),
         Marker::Ring => area.draw(&Circle::new(at, r, line)),

@@ -8,6 +8,7 @@
 //! names the file, line and column and says what to do (DESIGN.md).
 
 pub mod number;
+mod parallel;
 pub mod rows;
 pub mod sheet;
 pub mod text;
@@ -90,79 +91,145 @@ pub fn read(spec: &DataSpec) -> Result<Observations> {
 
 /// Parses already loaded bytes (see [`read`]).
 ///
+/// Files of at least [`parallel::MIN_BYTES`] bytes without any quote character are
+/// parsed in ranges on the rayon pool (see [`parallel`]); the result, and the first
+/// error in file order, are the same as from one sequential pass.
+///
 /// # Errors
 /// As [`read`].
 pub fn parse(bytes: &[u8], spec: &DataSpec, source: &str, loc: &Location) -> Result<Observations> {
+    parse_split(bytes, spec, source, loc, parallel::Split::for_pool())
+}
+
+/// [`parse`] with an explicit choice of when and how to split the body into ranges (the
+/// tests force the parallel path on small inputs with it).
+pub(crate) fn parse_split(
+    bytes: &[u8],
+    spec: &DataSpec,
+    source: &str,
+    loc: &Location,
+    split: parallel::Split,
+) -> Result<Observations> {
     check_spec(spec)?;
     let start = text::check_text(bytes, loc)?;
     let body = &bytes[start..];
     let delimiter = text::detect_delimiter(body, spec.delimiter, spec.decimal_comma, loc)?;
-    text::check_quotes(body, delimiter, loc)?;
-    let mut reader = csv::ReaderBuilder::new().has_headers(false).flexible(true).delimiter(delimiter).from_reader(body);
-
+    let has_quotes = body.contains(&b'"');
+    if has_quotes {
+        text::check_quotes(body, delimiter, loc)?;
+    }
+    let mut reader = reader_over(body, delimiter);
     let mut record = csv::ByteRecord::new();
-    let mut lines_of = text::LineCounter::new(body, 1);
-    let mut line_of = |record: &csv::ByteRecord| lines_of.line_at(record.position().map(|p| p.byte()).unwrap_or(0));
-    let header = loop {
-        match reader.read_byte_record(&mut record) {
-            Ok(true) if is_blank(&record) => continue,
-            Ok(true) => break header_names(&record),
-            Ok(false) => {
+    let mut lines = text::LineCounter::new(body, 1);
+    let ctx = Ranges { bytes, start, loc, spec, delimiter, header_len: 0 };
+    let header = ctx.read_header(&mut reader, &mut record)?;
+    let header_line = lines.line_at(record_byte(&record));
+    let columns = Columns::locate(&header, spec, &loc.at_line(header_line), delimiter)?;
+    let ctx = Ranges { header_len: header.len(), ..ctx };
+
+    let header_end = reader.position().byte() as usize;
+    if let Some(bounds) = split.bounds(body, header_end, has_quotes) {
+        return parallel::parse_ranges(&ctx, &columns, body, &bounds, source);
+    }
+    let mut sink = RowSink::new(spec);
+    sink.reserve(body[header_end.min(body.len())..].iter().filter(|&&b| b == b'\n').count() + 1);
+    ctx.read_rows(&mut reader, &mut record, &mut lines, 0, &columns, &mut sink)?;
+    sink.finish(source, loc, delimiter)
+}
+
+fn reader_over(text: &[u8], delimiter: u8) -> csv::Reader<&[u8]> {
+    csv::ReaderBuilder::new().has_headers(false).flexible(true).delimiter(delimiter).from_reader(text)
+}
+
+fn record_byte(record: &csv::ByteRecord) -> u64 {
+    record.position().map(|p| p.byte()).unwrap_or(0)
+}
+
+/// What reading any range of the body needs: the input, its options and the header width.
+struct Ranges<'a> {
+    bytes: &'a [u8],
+    start: usize,
+    loc: &'a Location,
+    spec: &'a DataSpec,
+    delimiter: u8,
+    header_len: usize,
+}
+
+impl Ranges<'_> {
+    /// The next record; `lines_before` is the number of line ends before the reader's
+    /// text in the body (for the line of a CSV error).
+    fn next(&self, reader: &mut csv::Reader<&[u8]>, record: &mut csv::ByteRecord, lines_before: u64) -> Result<bool> {
+        reader.read_byte_record(record).map_err(|e| csv_error(e, self.bytes, self.start, lines_before, self.loc))
+    }
+
+    /// Skips blank lines and reads the header record into `record`.
+    fn read_header(&self, reader: &mut csv::Reader<&[u8]>, record: &mut csv::ByteRecord) -> Result<Vec<String>> {
+        loop {
+            if !self.next(reader, record, 0)? {
                 return Err(Error::input_hint(
-                    loc.clone(),
+                    self.loc.clone(),
                     "the file has no header line",
                     "the first line must name the columns",
-                ))
+                ));
             }
-            Err(e) => return Err(csv_error(e, bytes, start, loc)),
+            if !is_blank(record) {
+                return Ok(header_names(record));
+            }
         }
-    };
-    let header_line = line_of(&record);
-    let columns = Columns::locate(&header, spec, &loc.at_line(header_line), delimiter)?;
-
-    let mut sink = RowSink::new(spec);
-    let nf = spec.factors.len();
-    loop {
-        match reader.read_byte_record(&mut record) {
-            Ok(true) => {}
-            Ok(false) => break,
-            Err(e) => return Err(csv_error(e, bytes, start, loc)),
-        }
-        if is_blank(&record) {
-            continue;
-        }
-        let line = line_of(&record);
-        if record.len() != header.len() {
-            return Err(Error::input_hint(
-                loc.at_line(line),
-                format!("this row has {} fields but the header has {}", record.len(), header.len()),
-                format!(
-                    "fields are split by {}; check for a stray delimiter or an unclosed quote, or name the delimiter with --delimiter",
-                    text::delimiter_name(delimiter)
-                ),
-            ));
-        }
-        let mut factors = [Field::Text(""); MAX_FACTORS];
-        for (slot, &col) in factors.iter_mut().zip(&columns.factors) {
-            *slot = Field::Text(field_str(&record, col));
-        }
-        let place = |role: Role| {
-            let name = match role {
-                Role::Outcome => spec.outcome.clone(),
-                Role::Factor(f) => spec.factors[f].clone(),
-                Role::Id => spec.id.clone().unwrap_or_default(),
-            };
-            loc.at_line(line).in_column(name)
-        };
-        sink.push(
-            line,
-            Field::Text(field_str(&record, columns.outcome)),
-            &factors[..nf],
-            columns.id.map(|col| Field::Text(field_str(&record, col))),
-            &place,
-        )?;
     }
-    sink.finish(source, loc, delimiter)
+
+    /// Reads data records to the end of the reader's text into `sink`.
+    fn read_rows(
+        &self,
+        reader: &mut csv::Reader<&[u8]>,
+        record: &mut csv::ByteRecord,
+        lines: &mut text::LineCounter<'_>,
+        lines_before: u64,
+        columns: &Columns,
+        sink: &mut RowSink<'_>,
+    ) -> Result<()> {
+        let (spec, loc) = (self.spec, self.loc);
+        let nf = spec.factors.len();
+        while self.next(reader, record, lines_before)? {
+            if is_blank(record) {
+                continue;
+            }
+            let line = lines.line_at(record_byte(record));
+            if record.len() != self.header_len {
+                return Err(Error::input_hint(
+                    loc.at_line(line),
+                    format!("this row has {} fields but the header has {}", record.len(), self.header_len),
+                    format!(
+                        "fields are split by {}; check for a stray delimiter or an unclosed quote, or name the delimiter with --delimiter",
+                        text::delimiter_name(self.delimiter)
+                    ),
+                ));
+            }
+            // One UTF-8 check per record rather than one per field used.
+            let all = std::str::from_utf8(record.as_slice()).unwrap_or("");
+            let field = |col: usize| record.range(col).and_then(|r| all.get(r)).unwrap_or("");
+            let mut factors = [Field::Text(""); MAX_FACTORS];
+            for (slot, &col) in factors.iter_mut().zip(&columns.factors) {
+                *slot = Field::Text(field(col));
+            }
+            let place = |role: Role| {
+                let name = match role {
+                    Role::Outcome => spec.outcome.clone(),
+                    Role::Factor(f) => spec.factors[f].clone(),
+                    Role::Id => spec.id.clone().unwrap_or_default(),
+                };
+                loc.at_line(line).in_column(name)
+            };
+            sink.push(
+                line,
+                Field::Text(field(columns.outcome)),
+                &factors[..nf],
+                columns.id.map(|col| Field::Text(field(col))),
+                &place,
+            )?;
+        }
+        Ok(())
+    }
 }
 
 fn check_spec(spec: &DataSpec) -> Result<()> {
@@ -221,8 +288,10 @@ fn header_names(record: &csv::ByteRecord) -> Vec<String> {
     (0..record.len()).map(|i| field_str(record, i).trim().to_string()).collect()
 }
 
-fn csv_error(e: csv::Error, bytes: &[u8], start: usize, loc: &Location) -> Error {
-    let line = e.position().map(|p| p.line()).unwrap_or_else(|| text::line_of(bytes, start));
+/// A CSV reader error at the line it names; the reader's lines count from its own text,
+/// which starts after `lines_before` line ends of the body.
+fn csv_error(e: csv::Error, bytes: &[u8], start: usize, lines_before: u64, loc: &Location) -> Error {
+    let line = e.position().map(|p| p.line() + lines_before).unwrap_or_else(|| text::line_of(bytes, start));
     Error::input_hint(
         loc.at_line(line),
         format!("the file cannot be read as delimited text: {e}"),

@@ -71,7 +71,12 @@ const FEW_LABELS: usize = 16;
 impl Interner {
     fn get(&self, label: &str) -> Option<u32> {
         if self.many.is_empty() {
-            self.few.iter().find(|(l, _)| &**l == label).map(|&(_, c)| c)
+            // Labels are short: comparing bytes in place beats a call to `memcmp`.
+            let label = label.as_bytes();
+            self.few
+                .iter()
+                .find(|(l, _)| l.len() == label.len() && l.bytes().zip(label).all(|(a, &b)| a == b))
+                .map(|&(_, c)| c)
         } else {
             self.many.get(label).copied()
         }
@@ -97,6 +102,15 @@ fn label_of<'a>(field: &Field<'a>) -> &'a str {
     match *field {
         Field::Text(s) | Field::Number(_, s) | Field::Refused(_, s) => s,
     }
+}
+
+/// The error for a participant id met again at `place`, first seen at line `first`.
+fn repeated_id(place: Location, key: &str, first: u64) -> Error {
+    Error::input_hint(
+        place,
+        format!("participant id `{key}` also appears at line {first}"),
+        "quorum analyses between-subjects designs: one row per participant. Repeated measures analysed as independent rows give pseudo-replicated p-values",
+    )
 }
 
 /// Accumulates rows into [`Observations`].
@@ -139,6 +153,17 @@ impl<'s> RowSink<'s> {
             dropped: Vec::new(),
             rows_read: 0,
             codes: vec![0; nf],
+        }
+    }
+
+    /// Makes room for `rows` more rows (a hint: the count of line ends ahead), so that
+    /// the columns do not grow by repeated copying.
+    pub(crate) fn reserve(&mut self, rows: usize) {
+        self.values.reserve(rows);
+        self.decimals.reserve(rows);
+        self.lines.reserve(rows);
+        for col in &mut self.factors {
+            col.codes.reserve(rows);
         }
     }
 
@@ -198,11 +223,7 @@ impl<'s> RowSink<'s> {
             if !self.missing.contains(&id) {
                 let key = label_of(&id);
                 if let Some(&first) = self.ids.get(key) {
-                    return Err(Error::input_hint(
-                        place(Role::Id),
-                        format!("participant id `{key}` also appears at line {first}"),
-                        "quorum analyses between-subjects designs: one row per participant. Repeated measures analysed as independent rows give pseudo-replicated p-values",
-                    ));
+                    return Err(repeated_id(place(Role::Id), key, first));
                 }
                 self.ids.insert(key.into(), line);
             }
@@ -214,6 +235,54 @@ impl<'s> RowSink<'s> {
         self.decimals.push(decimal);
         self.lines.push(line);
         Ok(())
+    }
+
+    /// Appends the rows of `later`, a sink that read the part of the same file right after
+    /// the rows of `self` (parallel reading, `data::parallel`). Labels new to `self` get the
+    /// next codes in `later`'s first-appearance order, so codes, labels and their first
+    /// lines are those one sink reading both parts would give. Participant ids are not
+    /// merged: [`RowSink::first_repeat`] checks them across parts beforehand.
+    pub(crate) fn absorb(&mut self, later: RowSink<'_>) {
+        for ((col, intern), part) in self.factors.iter_mut().zip(&mut self.intern).zip(later.factors) {
+            let map: Vec<u32> = part
+                .labels
+                .iter()
+                .zip(&part.first_line)
+                .map(|(label, &line)| match intern.get(label) {
+                    Some(code) => code,
+                    None => {
+                        col.labels.push(label.clone());
+                        col.first_line.push(line);
+                        intern.insert(label)
+                    }
+                })
+                .collect();
+            col.codes.extend(part.codes.iter().map(|&c| map[c as usize]));
+        }
+        self.values.extend_from_slice(&later.values);
+        self.decimals.extend_from_slice(&later.decimals);
+        self.lines.extend_from_slice(&later.lines);
+        self.dropped.extend(later.dropped);
+        self.rows_read += later.rows_read;
+    }
+
+    /// The first row of this sink (in line order) whose participant id one of `earlier`
+    /// (sinks of the preceding parts of the file, in file order) already holds, as the
+    /// error one sink reading all parts would have raised there.
+    pub(crate) fn first_repeat(&self, earlier: &[&RowSink<'_>], loc: &Location) -> Option<Error> {
+        if earlier.iter().all(|s| s.ids.is_empty()) {
+            return None;
+        }
+        let (key, line, first) = self
+            .ids
+            .iter()
+            .filter_map(|(key, &line)| {
+                let first = earlier.iter().find_map(|s| s.ids.get(key).copied())?;
+                Some((key, line, first))
+            })
+            .min_by_key(|&(_, line, _)| line)?;
+        let column = self.spec.id.clone().unwrap_or_default();
+        Some(repeated_id(loc.at_line(line).in_column(column), key, first))
     }
 
     /// The observations read, centred exactly.

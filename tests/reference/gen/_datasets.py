@@ -78,3 +78,21 @@ def write_csv(df, name):
 def complete(df, outcome, factors):
     """Rows with the outcome and every factor present (what quorum analyses)."""
     return df.dropna(subset=[outcome] + factors).reset_index(drop=True)
+
+
+def cells_with_lines(df, outcome, factors, level_sort):
+    """The complete rows with their input lines (`_line`, header = line 1), and each cell
+    in quorum's order (levels sorted by `level_sort`, last factor fastest) as
+    (levels, outcome values, input lines)."""
+    import itertools
+    df = df.copy()
+    df["_line"] = np.arange(len(df)) + 2  # header is line 1
+    d = complete(df, outcome, factors)
+    labels = [level_sort(list(d[f].astype(str).unique())) for f in factors]
+    cells = []
+    for combo in itertools.product(*labels):
+        mask = np.ones(len(d), dtype=bool)
+        for f, level in zip(factors, combo):
+            mask &= d[f].astype(str).to_numpy() == level
+        cells.append((combo, d.loc[mask, outcome].to_numpy(dtype=float), d.loc[mask, "_line"].to_numpy()))
+    return d, cells

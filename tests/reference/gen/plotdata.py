@@ -16,7 +16,6 @@ Per dataset of gen/_datasets.py (CSV lines: header = line 1):
   unweighted mean of the cell means with the pooled-error t interval
   SE = sqrt(MSE · Σ 1/n_c)/m, `scipy.stats.t.ppf(0.975, N − C)`.
 """
-import itertools
 
 import numpy as np
 import scipy.stats as st
@@ -35,18 +34,10 @@ def whiskers(x, q1, q3):
 
 
 def dataset_entry(df, outcome, factors, csv):
-    df = df.copy()
-    df["_line"] = np.arange(len(df)) + 2
-    d = ds.complete(df, outcome, factors)
-    labels = [level_sort(list(d[f].astype(str).unique())) for f in factors]
+    d, by_cell = ds.cells_with_lines(df, outcome, factors, level_sort)
     d["cellid"] = d[factors].astype(str).agg("|".join, axis=1)
     cells = []
-    for combo in itertools.product(*labels):
-        mask = np.ones(len(d), dtype=bool)
-        for f, level in zip(factors, combo):
-            mask &= d[f].astype(str).to_numpy() == level
-        x = d.loc[mask, outcome].to_numpy(dtype=float)
-        lines = d.loc[mask, "_line"].to_numpy()
+    for combo, x, lines in by_cell:
         q1, med, q3 = np.percentile(x, [25, 50, 75])
         iqr = q3 - q1
         outside = [int(l) for v, l in zip(x, lines)

@@ -91,8 +91,8 @@ pub fn read(spec: &DataSpec) -> Result<Observations> {
 
 /// Parses already loaded bytes (see [`read`]).
 ///
-/// Files of at least [`parallel::MIN_BYTES`] bytes without any quote character are
-/// parsed in ranges on the rayon pool (see [`parallel`]); the result, and the first
+/// Files of at least 1 MiB (`parallel::MIN_BYTES`) without any quote character are
+/// parsed in ranges on the rayon pool (see `data/parallel.rs`); the result, and the first
 /// error in file order, are the same as from one sequential pass.
 ///
 /// # Errors

@@ -10,7 +10,7 @@
 //! with an XML parser.
 //!
 //! Every user-supplied string (file names, column names, level labels, cell names, and
-//! messages that quote them) passes through [`escape::html`]; the SVG plots come from
+//! messages that quote them) passes through [`super::escape::html`]; the SVG plots come from
 //! [`super::plots`], which makes their text safe in the same way. The renderer reads the
 //! [`Analysis`] and formats; it computes nothing.
 

@@ -211,7 +211,7 @@ pub fn methods_paragraph(a: &Analysis) -> Inline {
         n => format!("{n} engines: {}", phrases.join("; ")),
     };
     let mut text = format!(
-        "Analyses were run with quorum {} (command `{}`; seed {}). Every main effect and interaction was tested on its Type III (sum-to-zero) hypothesis by {engines}. Decisions used α = {}",
+        "Analyses were run with quorum {} (command \"{}\"; seed {}). Every main effect and interaction was tested on its Type III (sum-to-zero) hypothesis by {engines}. Decisions used α = {}",
         r.version,
         r.command,
         r.seed,
@@ -255,7 +255,7 @@ pub fn methods_paragraph(a: &Analysis) -> Inline {
     for s in &a.sensitivity {
         if !s.rows_removed.is_empty() {
             text.push_str(&format!(
-                " A sensitivity analysis repeated every engine without {} point{} flagged by the `{}` rule ({}); its p-values are descriptive.",
+                " A sensitivity analysis repeated every engine without {} point{} flagged by the \"{}\" rule ({}); its p-values are descriptive.",
                 s.rows_removed.len(),
                 if s.rows_removed.len() == 1 { "" } else { "s" },
                 s.rule,

@@ -320,7 +320,7 @@ fn methods_paragraph_names_every_engine_that_ran() {
         }
         assert!(methods.contains(&format!("seed {}", a.reproducibility.seed)));
         assert!(methods.contains(&format!("quorum {}", a.reproducibility.version)));
-        assert!(methods.contains(&format!("`{}`", a.reproducibility.command)));
+        assert!(methods.contains(&format!("\"{}\"", a.reproducibility.command)));
         assert!(methods.contains(&format!("by {} engine", engines.len()).replace("by 1 engine", "by one engine")));
         // One result sentence per term, from the primary engine (none when no rule's
         // engine ran, e.g. `trimmed` alone on data that flag nothing).

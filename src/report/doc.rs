@@ -571,7 +571,7 @@ mod tests {
             .text(" = .015");
         assert_eq!(md(&[Block::Para(l)]), "value *F*(2, 51) = 4.54, *p* = .015\n\n");
         let l = Inline::new().add(Style::Strong, " primary ");
-        assert_eq!(md(&[Block::Para(l)]), " **primary** \n\n");
+        assert_eq!(md(&[Block::Para(l)]), "**primary** \n\n");
         // Table cells are not line starts: numbers stay as they are.
         let mut t = DocTable::new(&[("x", Align::Right)]);
         t.row(vec!["-0.77".into()]);

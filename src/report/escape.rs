@@ -57,10 +57,14 @@ pub fn xml(s: &str) -> String {
 /// while staying readable as plain text: a backslash goes before the characters that
 /// can open inline syntax anywhere (`` \ ` * _ [ ] < > | ~ & $ ^ ``) and before the
 /// block markers that only count at the start of a line (`#`, `-`, `+`, `=`, `:` first;
-/// `.` or `)` after leading digits) when `at_line_start`; line breaks become spaces and
+/// `.` or `)` after leading digits) when `at_line_start`, where leading blanks are
+/// dropped; line breaks become spaces and
 /// characters XML forbids become U+FFFD. Checked with a CommonMark parser in
 /// `tests/checks/report.rs`.
 pub fn markdown(s: &str, at_line_start: bool) -> String {
+    // Leading blanks at the start of a line would indent (four make a code block, fewer
+    // still let a marker count); a rendered paragraph drops them anyway.
+    let s = if at_line_start { s.trim_start_matches([' ', '\t']) } else { s };
     let chars: Vec<char> = s.chars().collect();
     let leading_digits = if at_line_start { chars.iter().take_while(|c| c.is_ascii_digit()).count() } else { 0 };
     let mut out = String::with_capacity(s.len() + 8);
@@ -128,6 +132,7 @@ mod tests {
         assert_eq!(markdown("# h", true), "\\# h");
         assert_eq!(markdown("# h", false), "# h");
         assert_eq!(markdown("12. x", true), "12\\. x");
+        assert_eq!(markdown("    # h", true), "\\# h");
         assert_eq!(markdown("a\u{1}b", false), "a\u{FFFD}b");
     }
 }

@@ -643,8 +643,10 @@ fn tally(calls: &[Call]) -> String {
         .map(|(m, _)| *m)
         .collect();
     let decided = reject.len() + retain.len();
-    let mut s = if reject.is_empty() {
-        format!("none of the {decided} methods rejects")
+    let mut s = if decided == 0 {
+        "no method decided".to_string()
+    } else if reject.is_empty() {
+        format!("0 of {decided} methods reject")
     } else {
         format!("{} of {decided} methods reject ({})", reject.len(), reject.join(", "))
     };
@@ -724,5 +726,18 @@ fn details(a: &Analysis, b: &mut Vec<Block>) {
     if !a.sensitivity.is_empty() {
         b.push(Block::Subheading("Sensitivity variant, engine by engine".into()));
         b.push(Block::Pre(super::capture(|out| super::diagnostics_text::sensitivity(a, out))));
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn tally_counts_the_methods_that_decided() {
+        let calls = [("a", Some(Decision::Reject)), ("b", Some(Decision::Retain)), ("c", None)];
+        assert_eq!(tally(&calls), "1 of 2 methods reject (a); not decided: c");
+        assert_eq!(tally(&calls[1..2]), "0 of 1 methods reject");
+        assert_eq!(tally(&[("c", Some(Decision::Undetermined))]), "no method decided; not decided: c");
     }
 }

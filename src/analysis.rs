@@ -51,7 +51,12 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         cells: cells::cell_table(design, settings.trim, settings.ci_level),
         marginal_means: cells::marginal_means(design, &fit, settings.ci_level),
     };
-    let diagnosis = diagnostics::diagnose(design, &fit, settings.seed);
+    // The residual plots read every observation but depend on nothing below, so they
+    // are drawn beside the diagnostics.
+    let (diagnosis, residual_plots) = rayon::join(
+        || diagnostics::diagnose(design, &fit, settings.seed),
+        || diagnostics::plotdata::residual_plots(design, &fit),
+    );
     let calibration = match (config.job, settings.calibration) {
         (Job::Analyze, Some(sims)) => Some(crate::plan::calibrate(design, settings, sims)?),
         _ => None,
@@ -119,8 +124,15 @@ pub fn analyse_design(config: &Config, design: &Design, input: InputSummary) -> 
         Job::Analyze => crate::followup::automatic(design, &fit, settings, &concordance)?,
         _ => Vec::new(),
     };
-    let plot_data =
-        diagnostics::plotdata::compute(design, &fit, &summary.cells, plot_axes, settings.ci_level, &engine_results);
+    let plot_data = diagnostics::plotdata::assemble(
+        design,
+        &fit,
+        &summary.cells,
+        plot_axes,
+        settings.ci_level,
+        &engine_results,
+        residual_plots,
+    );
     let diagnostics = diagnosis.diagnostics;
     Ok(Analysis {
         schema: SCHEMA,

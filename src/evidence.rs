@@ -28,7 +28,7 @@ use crate::robust::{self, TrimmedCell};
 pub fn compute(design: &Design, settings: &Settings) -> Vec<TermEvidence> {
     let dense = design.n_cells() <= DENSE_CELL_LIMIT;
     let untrimmed: Vec<TrimmedCell> = if dense {
-        (0..design.n_cells()).map(|c| TrimmedCell::new(design.cell_values(c), 0.0)).collect()
+        (0..design.n_cells()).map(|c| TrimmedCell::from_sorted(design.sorted_cell(c), 0.0)).collect()
     } else {
         Vec::new()
     };

@@ -13,6 +13,17 @@ pub fn sorted(x: &[f64]) -> Vec<f64> {
     v
 }
 
+/// A value's bits mapped so that unsigned order is [`f64::total_cmp`] order (for sort
+/// keys).
+pub fn total_order_key(v: f64) -> u64 {
+    let b = v.to_bits();
+    if b >> 63 == 1 {
+        !b
+    } else {
+        b | (1 << 63)
+    }
+}
+
 /// Quantile of sorted data, Hyndman & Fan (1996, The American Statistician 50:361–365)
 /// type 7: h = (n − 1)p + 1, Q = x_(⌊h⌋) + (h − ⌊h⌋)(x_(⌊h⌋+1) − x_(⌊h⌋)).
 /// NaN for empty data or p outside [0, 1].
@@ -110,14 +121,7 @@ pub fn order_summary(x: &[f64], gamma: f64) -> OrderSummary {
         };
     }
     if n <= SORT_SMALL {
-        let s = sorted(x);
-        return OrderSummary {
-            min: s[0],
-            max: s[n - 1],
-            median: median_sorted(&s),
-            trimmed_mean: trimmed_mean_sorted(&s, gamma),
-            winsorized_variance: winsorized_variance_sorted(&s, gamma),
-        };
+        return order_summary_sorted(&sorted(x), gamma);
     }
     let cmp = |a: &f64, b: &f64| a.total_cmp(b);
     let mut v = x.to_vec();
@@ -145,6 +149,21 @@ pub fn order_summary(x: &[f64], gamma: f64) -> OrderSummary {
     let trimmed_mean = crate::model::mean_two_pass(&v[g..n - g]);
     let wins: Vec<f64> = x.iter().map(|&z| z.clamp(low, high)).collect();
     OrderSummary { min, max, median, trimmed_mean, winsorized_variance: variance(&wins) }
+}
+
+/// [`OrderSummary`] of values sorted ascending. Empty input gives NaN everywhere.
+pub fn order_summary_sorted(s: &[f64], gamma: f64) -> OrderSummary {
+    let n = s.len();
+    if n == 0 {
+        return order_summary(s, gamma);
+    }
+    OrderSummary {
+        min: s[0],
+        max: s[n - 1],
+        median: median_sorted(s),
+        trimmed_mean: trimmed_mean_sorted(s, gamma),
+        winsorized_variance: winsorized_variance_sorted(s, gamma),
+    }
 }
 
 /// Sample variance with n − 1 denominator (two-pass); NaN for n < 2.

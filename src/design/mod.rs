@@ -16,6 +16,7 @@ use crate::config::DataSpec;
 use crate::data::{FactorColumn, Observations};
 use crate::error::{Error, Location, Result};
 use std::collections::HashMap;
+use std::sync::OnceLock;
 
 /// The largest number of cells quorum accepts (checked before any allocation).
 pub const MAX_CELLS: usize = 10_000;
@@ -125,6 +126,58 @@ pub struct Design {
     y: Vec<f64>,
     location: f64,
     lines: Vec<u64>,
+    /// Every cell's values in ascending order, with their positions in the cell;
+    /// computed on first use ([`Design::sorted_cell`]).
+    sorted: OnceLock<SortedCells>,
+}
+
+/// Every cell sorted: `values` holds each cell's values ascending at the cell's own range
+/// of the canonical order, `order` their positions within the cell (ties in input
+/// order).
+#[derive(Debug, Clone)]
+struct SortedCells {
+    values: Vec<f64>,
+    order: Vec<usize>,
+}
+
+/// Sorts (key, position) pairs by key, keeping input order among equal keys: a
+/// least-significant-digit radix sort on 11-bit digits (stable), which skips a digit
+/// that every key shares. Small inputs use the comparison sort on (key, position),
+/// which gives the same order.
+fn radix_sort(mut a: Vec<(u64, usize)>) -> Vec<(u64, usize)> {
+    const BITS: u32 = 11;
+    const BUCKETS: usize = 1 << BITS;
+    if a.len() <= 256 {
+        a.sort_unstable();
+        return a;
+    }
+    let mut b = vec![(0u64, 0usize); a.len()];
+    let mut counts = vec![0usize; BUCKETS];
+    let mut shift = 0u32;
+    while shift < 64 {
+        counts.iter_mut().for_each(|c| *c = 0);
+        for &(k, _) in &a {
+            counts[((k >> shift) as usize) & (BUCKETS - 1)] += 1;
+        }
+        if counts.contains(&a.len()) {
+            shift += BITS;
+            continue;
+        }
+        let mut total = 0;
+        for c in counts.iter_mut() {
+            let here = *c;
+            *c = total;
+            total += here;
+        }
+        for &(k, i) in &a {
+            let d = ((k >> shift) as usize) & (BUCKETS - 1);
+            b[counts[d]] = (k, i);
+            counts[d] += 1;
+        }
+        std::mem::swap(&mut a, &mut b);
+        shift += BITS;
+    }
+    a
 }
 
 impl Design {
@@ -240,7 +293,15 @@ impl Design {
             lines[next[c]] = obs.lines[i];
             next[c] += 1;
         }
-        Ok(Design { outcome: obs.outcome.clone(), layout, cell_start, y, location: obs.location, lines })
+        Ok(Design {
+            outcome: obs.outcome.clone(),
+            layout,
+            cell_start,
+            y,
+            location: obs.location,
+            lines,
+            sorted: OnceLock::new(),
+        })
     }
 
     /// A design from cell data given directly (tests, simulations): `cells[c]` holds the
@@ -267,7 +328,15 @@ impl Design {
             cell_start.push(y.len());
         }
         let lines = (0..y.len() as u64).map(|i| i + 2).collect();
-        Ok(Design { outcome: outcome.to_string(), layout, cell_start, y, location: 0.0, lines })
+        Ok(Design {
+            outcome: outcome.to_string(),
+            layout,
+            cell_start,
+            y,
+            location: 0.0,
+            lines,
+            sorted: OnceLock::new(),
+        })
     }
 
     /// Checks what every test of the full factorial needs: residual degrees of freedom
@@ -407,7 +476,46 @@ impl Design {
             y,
             location: self.location,
             lines,
+            sorted: OnceLock::new(),
         })
+    }
+
+    fn sorted_cells(&self) -> &SortedCells {
+        self.sorted.get_or_init(|| {
+            use rayon::prelude::*;
+            let per_cell: Vec<Vec<(u64, usize)>> = (0..self.n_cells())
+                .into_par_iter()
+                .map(|c| {
+                    let keyed: Vec<(u64, usize)> = self
+                        .cell_values(c)
+                        .iter()
+                        .enumerate()
+                        .map(|(i, &v)| (crate::summary::total_order_key(v), i))
+                        .collect();
+                    radix_sort(keyed)
+                })
+                .collect();
+            let mut values = Vec::with_capacity(self.y.len());
+            let mut order = Vec::with_capacity(self.y.len());
+            for (c, keyed) in per_cell.iter().enumerate() {
+                let cell = self.cell_values(c);
+                values.extend(keyed.iter().map(|&(_, i)| cell[i]));
+                order.extend(keyed.iter().map(|&(_, i)| i));
+            }
+            SortedCells { values, order }
+        })
+    }
+
+    /// Cell `c`'s centred values in ascending order (`f64::total_cmp`). All cells are
+    /// sorted together, in parallel, on the first call.
+    pub fn sorted_cell(&self, c: usize) -> &[f64] {
+        &self.sorted_cells().values[self.cell_range(c)]
+    }
+
+    /// Positions within cell `c` of its values in ascending order (ties in input order):
+    /// `sorted_cell(c)[k] == cell_values(c)[sorted_positions(c)[k]]`.
+    pub fn sorted_positions(&self, c: usize) -> &[usize] {
+        &self.sorted_cells().order[self.cell_range(c)]
     }
 }
 
@@ -486,6 +594,33 @@ fn check_spellings(col: &FactorColumn, loc: &Location) -> Result<()> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn radix_sort_matches_the_comparison_sort() {
+        let mut x: u64 = 0x9E37_79B9_7F4A_7C15;
+        let values: Vec<f64> = (0..5000)
+            .map(|i| {
+                x ^= x << 13;
+                x ^= x >> 7;
+                x ^= x << 17;
+                match i % 7 {
+                    0 => -0.0,
+                    1 => 0.0,
+                    2 => ((x % 50) as f64) - 25.0, // many ties
+                    3 => f64::MIN_POSITIVE * (x % 3) as f64,
+                    _ => (x as f64 / u64::MAX as f64 - 0.5) * 1e6,
+                }
+            })
+            .collect();
+        let keyed: Vec<(u64, usize)> =
+            values.iter().enumerate().map(|(i, &v)| (crate::summary::total_order_key(v), i)).collect();
+        let mut expected = keyed.clone();
+        expected.sort_unstable();
+        assert_eq!(radix_sort(keyed), expected);
+        let mut by_value: Vec<usize> = (0..values.len()).collect();
+        by_value.sort_by(|&a, &b| values[a].total_cmp(&values[b]).then(a.cmp(&b)));
+        assert_eq!(expected.iter().map(|p| p.1).collect::<Vec<_>>(), by_value);
+    }
     use crate::config::Source;
 
     fn spec(factors: &[&str]) -> DataSpec {

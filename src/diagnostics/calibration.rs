@@ -16,7 +16,7 @@
 //! §10), so results do not depend on the thread count. Normal variates are made by
 //! the Box–Muller transform of two uniform doubles (Box & Muller 1958).
 
-use super::outliers::{mad_score_tail, screen_unsorted};
+use super::outliers::{mad_score_tail, screen_unsorted, ScreenCounts};
 use crate::resample::{par_chunks, Purpose, Stream};
 
 /// Share of null datasets on which a calibrated flag may fire (Monte Carlo test level).
@@ -31,7 +31,8 @@ pub const AUX_DIAGNOSTICS: u64 = 0x4449_4147;
 
 /// Simulated datasets for a design of `n_obs` observations: 1999, fewer for large
 /// designs (the cost is about R·N: about 0.2 s at 10 000 rows and 6 s at a million
-/// rows on one core of the development machine, see the README's performance section). (R + 1)·[`FLAG_LEVEL`] and
+/// rows on one core of the development machine; designs whose every cell is large use
+/// [`super::large_sample`] instead, see [`NullReference::for_design`]). (R + 1)·[`FLAG_LEVEL`] and
 /// (R + 1)·[`DROP_LEVEL`] stay whole numbers, so the Monte Carlo tests are exact at
 /// every size; the realised false-flag rate of one seed scatters around the level by
 /// about √(level/R) (0.2 percentage points at R = 1999).
@@ -90,13 +91,30 @@ pub fn g1_g2(n: usize, m2: f64, m3: f64, m4: f64) -> (f64, f64) {
 
 /// The flag statistics of a dataset given cell by cell (any order of values in a cell).
 pub fn dataset_stats<'a>(cells: impl Iterator<Item = &'a [f64]>, buf: &mut Buffers) -> DatasetStats {
+    let counted = cells.map(|x| {
+        buf.work.clear();
+        buf.work.extend_from_slice(x);
+        (x, screen_unsorted(&mut buf.work, &mut buf.scratch))
+    });
+    // The screening buffers are borrowed by the iterator, so the moments need none.
+    accumulate(counted.collect::<Vec<_>>().into_iter())
+}
+
+/// [`dataset_stats`] of cells whose screening counts are known (`counts[c]` of
+/// `cells[c]`, e.g. from [`super::outliers::CellScreen::counts`]): only the moments are
+/// summed, over `cells` in their own order.
+pub fn dataset_stats_from_counts(cells: &[&[f64]], counts: &[ScreenCounts]) -> DatasetStats {
+    accumulate(cells.iter().copied().zip(counts.iter().copied()))
+}
+
+fn accumulate<'a>(cells: impl Iterator<Item = (&'a [f64], ScreenCounts)>) -> DatasetStats {
     let (mut s2, mut s3, mut s4) = (0.0, 0.0, 0.0);
     let mut n_total = 0usize;
     let (mut v_max, mut v_min, mut v_cells) = (f64::NEG_INFINITY, f64::INFINITY, 0usize);
     let (mut r_max, mut r_min) = (f64::NEG_INFINITY, f64::INFINITY);
     let (mut outside, mut far, mut mad) = (0u32, 0u32, 0u32);
     let mut min_tail = 1.0f64;
-    for x in cells {
+    for (x, counts) in cells {
         let n = x.len();
         if n == 0 {
             continue;
@@ -112,9 +130,6 @@ pub fn dataset_stats<'a>(cells: impl Iterator<Item = &'a [f64]>, buf: &mut Buffe
             s4 += d2 * d2;
         }
         s2 += c2;
-        buf.work.clear();
-        buf.work.extend_from_slice(x);
-        let counts = screen_unsorted(&mut buf.work, &mut buf.scratch);
         outside += counts.outside;
         far += counts.far;
         mad += counts.mad;
@@ -157,11 +172,10 @@ pub fn dataset_stats<'a>(cells: impl Iterator<Item = &'a [f64]>, buf: &mut Buffe
 /// Fills `out` with standard normal variates (Box–Muller; uniforms in (0, 1) from the
 /// top 53 bits of each output word, offset by half a step so that ln never sees 0).
 pub fn fill_normal(stream: &mut Stream, out: &mut [f64]) {
-    const STEP: f64 = 1.0 / (1u64 << 53) as f64;
     let mut pairs = out.chunks_mut(2);
     for pair in &mut pairs {
-        let u1 = ((stream.next_u64() >> 11) as f64 + 0.5) * STEP;
-        let u2 = ((stream.next_u64() >> 11) as f64 + 0.5) * STEP;
+        let u1 = stream.open_uniform();
+        let u2 = stream.open_uniform();
         let r = (-2.0 * u1.ln()).sqrt();
         let (s, c) = (std::f64::consts::TAU * u2).sin_cos();
         pair[0] = r * c;
@@ -169,6 +183,17 @@ pub fn fill_normal(stream: &mut Stream, out: &mut [f64]) {
             pair[1] = r * s;
         }
     }
+}
+
+/// How the null distribution of the flag statistics was obtained.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum NullMethod {
+    /// R normal datasets of the design's cell sizes, simulated value by value.
+    Simulation,
+    /// R draws of the statistics from their large-sample distributions
+    /// ([`super::large_sample`]; every cell has at least
+    /// [`super::large_sample::LARGE_CELL`] observations).
+    LargeSample,
 }
 
 /// The flag statistics of R simulated normal, equal-variance datasets with the given
@@ -179,9 +204,30 @@ pub struct NullReference {
     pub datasets: u64,
     /// Statistics of each simulated dataset, in simulation order.
     pub stats: Vec<DatasetStats>,
+    /// How they were simulated.
+    pub method: NullMethod,
 }
 
 impl NullReference {
+    /// The reference `diagnose` uses for cell sizes `sizes`: the large-sample draws when
+    /// every non-empty cell has at least [`super::large_sample::LARGE_CELL`]
+    /// observations ([`super::large_sample::LARGE_SAMPLE_DATASETS`] datasets), else the
+    /// exact simulation with [`null_datasets`] datasets.
+    pub fn for_design(sizes: &[usize], seed: u64) -> NullReference {
+        if super::large_sample::applies(sizes) {
+            NullReference::large_sample(sizes, seed, super::large_sample::LARGE_SAMPLE_DATASETS)
+        } else {
+            NullReference::simulate(sizes, seed, null_datasets(sizes.iter().sum()))
+        }
+    }
+
+    /// R = `datasets` draws from the large-sample distributions for cell sizes `sizes`
+    /// (meaningful only when every non-empty cell is large, see [`super::large_sample`]).
+    pub fn large_sample(sizes: &[usize], seed: u64, datasets: u64) -> NullReference {
+        let model = super::large_sample::LargeSampleModel::new(sizes);
+        NullReference { datasets, stats: model.simulate(seed, datasets), method: NullMethod::LargeSample }
+    }
+
     /// Simulates R = `datasets` normal datasets with cell sizes `sizes`. Dataset b uses
     /// the stream (seed, Auxiliary, term 0, chunk ⌊b/256⌋, aux [`AUX_DIAGNOSTICS`]),
     /// cells drawn in cell order.
@@ -207,7 +253,7 @@ impl NullReference {
             }
             out
         });
-        NullReference { datasets, stats: chunks.into_iter().flatten().collect() }
+        NullReference { datasets, stats: chunks.into_iter().flatten().collect(), method: NullMethod::Simulation }
     }
 
     /// Monte Carlo p-value of a large observed value: (1 + #{simulated ≥ observed})/(R + 1).
@@ -301,6 +347,25 @@ mod tests {
             .collect();
         assert!((s.residual_g1 - crate::summary::skewness(&resid).unwrap()).abs() < 1e-12);
         assert!((s.residual_g2 - crate::summary::excess_kurtosis(&resid).unwrap()).abs() < 1e-12);
+    }
+
+    #[test]
+    fn statistics_from_screens_match_the_screening_pass() {
+        let cells = [vec![1.0, 9.0, 4.0, 8.0, 2.5, 30.0], vec![3.0, 3.5, 9.0, -4.0], vec![0.5, 0.7, 0.6]];
+        let mut buf = Buffers::default();
+        let a = dataset_stats(cells.iter().map(|c| c.as_slice()), &mut buf);
+        let views: Vec<&[f64]> = cells.iter().map(|c| c.as_slice()).collect();
+        let counts: Vec<ScreenCounts> = cells
+            .iter()
+            .map(|c| {
+                let sorted = crate::summary::sorted(c);
+                let from_screen = crate::diagnostics::outliers::screen(c).counts(&sorted);
+                assert_eq!(from_screen, crate::diagnostics::outliers::screen_sorted(&sorted));
+                from_screen
+            })
+            .collect();
+        assert_eq!(a, dataset_stats_from_counts(&views, &counts));
+        assert!(a.outside >= 1 && a.mad >= 1, "{a:?}");
     }
 
     #[test]

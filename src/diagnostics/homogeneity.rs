@@ -36,28 +36,42 @@ pub enum HomogeneityProblem {
 /// # Errors
 /// [`HomogeneityProblem`] when W is undefined.
 pub fn levene(cells: &[&[f64]], centre: Centre) -> Result<FTest, HomogeneityProblem> {
+    let centres: Vec<f64> = cells
+        .iter()
+        .map(|x| match centre {
+            Centre::Mean => crate::model::mean_two_pass(x),
+            Centre::Median => summary::median_sorted(&summary::sorted(x)),
+        })
+        .collect();
+    levene_about(cells, &centres)
+}
+
+/// [`levene`] with each cell's centre given (its mean or median), for callers that
+/// have the cells' medians already.
+///
+/// # Errors
+/// As [`levene`].
+pub fn levene_about(cells: &[&[f64]], centres: &[f64]) -> Result<FTest, HomogeneityProblem> {
     let c = cells.len();
     let n: usize = cells.iter().map(|x| x.len()).sum();
     if c < 2 || n <= c {
         return Err(HomogeneityProblem::NoDf);
     }
-    let z: Vec<Vec<f64>> = cells
-        .iter()
-        .map(|x| {
-            let m = match centre {
-                Centre::Mean => crate::model::mean_two_pass(x),
-                Centre::Median => summary::median_sorted(&summary::sorted(x)),
-            };
-            x.iter().map(|v| (v - m).abs()).collect()
+    // z_ci = |y_ci − m_c| is recomputed in each pass rather than stored.
+    let z = |c: usize| cells[c].iter().map(move |v| (v - centres[c]).abs());
+    let means: Vec<f64> = (0..c)
+        .map(|k| {
+            let len = cells[k].len() as f64;
+            let m0 = z(k).sum::<f64>() / len;
+            m0 + z(k).map(|v| v - m0).sum::<f64>() / len
         })
         .collect();
-    let means: Vec<f64> = z.iter().map(|zc| crate::model::mean_two_pass(zc)).collect();
-    let grand = z.iter().zip(&means).map(|(zc, m)| m * zc.len() as f64).sum::<f64>() / n as f64;
-    let between: f64 = z.iter().zip(&means).map(|(zc, m)| zc.len() as f64 * (m - grand).powi(2)).sum();
-    let within: f64 = z.iter().zip(&means).map(|(zc, m)| zc.iter().map(|v| (v - m).powi(2)).sum::<f64>()).sum();
+    let grand = (0..c).map(|k| means[k] * cells[k].len() as f64).sum::<f64>() / n as f64;
+    let between: f64 = (0..c).map(|k| cells[k].len() as f64 * (means[k] - grand).powi(2)).sum();
+    let within: f64 = (0..c).map(|k| z(k).map(|v| (v - means[k]).powi(2)).sum::<f64>()).sum();
     let (df1, df2) = ((c - 1) as f64, (n - c) as f64);
     // A denominator that is zero up to rounding (relative to the data's spread) is zero.
-    let scale: f64 = z.iter().flatten().map(|v| v * v).sum();
+    let scale: f64 = (0..c).map(|k| z(k).map(|v| v * v).sum::<f64>()).sum();
     if within.is_nan() || within <= 1e-28 * scale || within <= 0.0 {
         return Err(HomogeneityProblem::ZeroDenominator);
     }

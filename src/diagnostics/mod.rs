@@ -13,6 +13,7 @@ pub mod calibration;
 pub mod cells;
 pub mod flags;
 pub mod homogeneity;
+pub mod large_sample;
 pub mod normality;
 pub mod outliers;
 pub mod plotdata;
@@ -23,10 +24,11 @@ use crate::model::Fit;
 use crate::results::{
     finite, CalibratedCheck, Calibration, CellDiagnostics, Diagnostics, Flag, Outlier, ResidualShape, ShapiroWilk,
 };
-use calibration::{Buffers, DatasetStats, NullReference, FLAG_LEVEL};
+use calibration::{DatasetStats, NullMethod, NullReference, FLAG_LEVEL};
 use flags::{lines_phrase, null_p_phrase, Code};
 use homogeneity::{Centre, HomogeneityProblem};
 use outliers::Rule;
+use rayon::slice::ParallelSliceMut;
 
 /// Cell sizes above this ratio count as unequal for the variance–size pairing flag
 /// (METHODS §11.2 rule 3; Blanca et al. 2018 report the F test's robustness breaking
@@ -79,11 +81,11 @@ impl Diagnosis {
 }
 
 /// Runs every diagnostic of METHODS §2 and calibrates the flags with a null simulation
-/// seeded by `seed` (streams `Purpose::Auxiliary`, [`calibration::null_datasets`]
-/// datasets with the design's cell sizes). Never fails: degenerate cells give `None`
-/// values and structural flags.
+/// seeded by `seed` ([`NullReference::for_design`]: streams `Purpose::Auxiliary`; the
+/// design's cell sizes; large-sample draws when every cell is large). Never fails:
+/// degenerate cells give `None` values and structural flags.
 pub fn diagnose(design: &Design, fit: &Fit, seed: u64) -> Diagnosis {
-    let reference = NullReference::simulate(&design.cell_sizes(), seed, calibration::null_datasets(design.n_obs()));
+    let reference = NullReference::for_design(&design.cell_sizes(), seed);
     diagnose_with(design, fit, &reference)
 }
 
@@ -96,8 +98,12 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     let sizes = design.cell_sizes();
     let lines = design.lines();
     let cell_slices: Vec<&[f64]> = (0..n_cells).map(|c| design.cell_values(c)).collect();
+    let sorted_slices: Vec<&[f64]> = (0..n_cells).map(|c| design.sorted_cell(c)).collect();
     let names: Vec<String> = (0..n_cells).map(|c| design.layout.cell_name(c)).collect();
-    let screens: Vec<outliers::CellScreen> = cell_slices.iter().map(|v| outliers::screen(v)).collect();
+    let screens: Vec<outliers::CellScreen> = {
+        use rayon::prelude::*;
+        (0..n_cells).into_par_iter().map(|c| outliers::screen_given_sorted(cell_slices[c], sorted_slices[c])).collect()
+    };
     let mut flags_out: Vec<Flag> = Vec::new();
     let mut notes: Vec<String> = Vec::new();
 
@@ -116,8 +122,18 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     let n_ratio = n_max / n_min;
 
     // Homogeneity tests.
-    let levene = homogeneity::levene(&cell_slices, Centre::Mean);
-    let brown_forsythe = homogeneity::levene(&cell_slices, Centre::Median);
+    // The four passes over all the data run side by side; the flags they raise are
+    // pushed below in a fixed order.
+    let medians: Vec<f64> = sorted_slices.iter().map(|s| crate::summary::median_sorted(s)).collect();
+    let ((levene, brown_forsythe), (resid_shape, discrete)) = rayon::join(
+        || {
+            rayon::join(
+                || homogeneity::levene(&cell_slices, Centre::Mean),
+                || homogeneity::levene_about(&cell_slices, &medians),
+            )
+        },
+        || rayon::join(|| residual_shape(design, fit, &sorted_slices), || discreteness(&sorted_slices)),
+    );
     if let Err(problem) = levene {
         flags_out.push(Code::HomogeneityUndefined.flag(match problem {
             HomogeneityProblem::NoDf => {
@@ -134,13 +150,11 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     }
 
     // Pooled residuals.
-    let residuals: Vec<f64> = (0..n_cells).flat_map(|c| cell_slices[c].iter().map(move |&v| v - fit.mean[c])).collect();
-    let resid_shape = normality::shape(&residuals);
     let residual_sw = resid_shape.shapiro_wilk.ok().and_then(sw_result);
-    if residuals.len() > normality::SW_MAX_VALIDATED_N {
+    if resid_shape.n > normality::SW_MAX_VALIDATED_N {
         flags_out.push(Code::ShapiroLargeN.flag(format!(
             "Shapiro–Wilk on the {} pooled residuals: Royston's p-value is validated only up to n = 5000",
-            residuals.len()
+            resid_shape.n
         )));
     }
 
@@ -150,7 +164,7 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     for c in 0..n_cells {
         let s = &screens[c];
         let n = sizes[c];
-        let sw_problem = normality::shapiro_wilk(cell_slices[c]).err();
+        let sw_problem = normality::sw_problem_sorted(sorted_slices[c]);
         if let Some(p) = sw_problem {
             sw_na.push(format!("{} ({})", names[c], p.reason()));
         }
@@ -199,7 +213,7 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     }
 
     // Discrete outcome: few distinct values, or many ties.
-    if let Some(flag) = discreteness(design.y()) {
+    if let Some(flag) = discrete {
         flags_out.push(flag);
     }
 
@@ -220,7 +234,8 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     }
 
     // Calibration against normal data with these cell sizes.
-    let observed = calibration::dataset_stats(cell_slices.iter().copied(), &mut Buffers::default());
+    let counts: Vec<outliers::ScreenCounts> = (0..n_cells).map(|c| screens[c].counts(sorted_slices[c])).collect();
+    let observed = calibration::dataset_stats_from_counts(&cell_slices, &counts);
     let datasets = reference.datasets;
     let mut checks = Vec::new();
     let mut check = |id: &str,
@@ -281,19 +296,9 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
         )));
     }
     // Outliers: the most extreme point by its n-adjusted MAD score (a max-type test).
-    let mut scored: Vec<(usize, usize, f64, f64)> = Vec::new(); // (cell, position, score, tail)
-    for c in 0..n_cells {
-        let s = &screens[c];
-        if s.madn <= 0.0 {
-            continue;
-        }
-        for (i, &v) in cell_slices[c].iter().enumerate() {
-            let score = (v - s.median).abs() / s.madn;
-            scored.push((c, i, score, outliers::mad_score_tail(score, sizes[c])));
-        }
-    }
+    let any_scored = screens.iter().any(|s| s.madn > 0.0);
     let min_tail = observed.min_mad_tail;
-    let p_ext = if scored.is_empty() { None } else { reference.p_lower(min_tail, |s| s.min_mad_tail) };
+    let p_ext = if any_scored { reference.p_lower(min_tail, |s| s.min_mad_tail) } else { None };
     check(
         "most_extreme_point",
         "most extreme point: n-adjusted tail level of its MAD score (small = extreme)",
@@ -304,12 +309,12 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     );
     if fires(p_ext) {
         let cut = reference.mad_tail_threshold(FLAG_LEVEL);
-        let mut beyond: Vec<&(usize, usize, f64, f64)> = scored.iter().filter(|x| x.3 < cut).collect();
+        let mut beyond = points_beyond(design, &screens, cut);
         beyond.sort_by(|a, b| a.3.total_cmp(&b.3));
         let listed: Vec<String> = beyond
             .iter()
             .take(10)
-            .map(|&&(c, i, score, _)| {
+            .map(|&(c, i, score, _)| {
                 format!(
                     "line {} (cell {}, {} MADN from the median)",
                     lines[design.cell_range(c).start + i],
@@ -425,7 +430,7 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     };
     let threshold = reference.mad_drop_threshold();
     let mad_rows: Vec<usize> =
-        scored.iter().filter(|x| x.3 < threshold).map(|&(c, i, _, _)| design.cell_range(c).start + i).collect();
+        points_beyond(design, &screens, threshold).iter().map(|&(c, i, _, _)| design.cell_range(c).start + i).collect();
     let mut distinct_n: Vec<usize> = sizes.clone();
     distinct_n.sort_unstable();
     distinct_n.dedup();
@@ -495,9 +500,15 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
         quantile_definition: outliers::QUANTILE_DEFINITION.to_string(),
         cells: cells_out,
         calibration: Some(Calibration {
-            method: format!(
-                "Monte Carlo test against {datasets} simulated datasets with normal errors, equal variances and these cell sizes (seeded, reproducible); p = (1 + #{{simulated ≥ observed}})/(R + 1)"
-            ),
+            method: match reference.method {
+                NullMethod::Simulation => format!(
+                    "Monte Carlo test against {datasets} simulated datasets with normal errors, equal variances and these cell sizes (seeded, reproducible); p = (1 + #{{simulated ≥ observed}})/(R + 1)"
+                ),
+                NullMethod::LargeSample => format!(
+                    "Monte Carlo test against {datasets} draws of the statistics from their large-sample distributions under normal errors, equal variances and these cell sizes (every cell has at least {} observations; seeded, reproducible); p = (1 + #{{simulated ≥ observed}})/(R + 1)",
+                    large_sample::LARGE_CELL
+                ),
+            },
             datasets,
             level: FLAG_LEVEL,
             checks,
@@ -507,6 +518,19 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     Diagnosis { diagnostics, far, mad }
 }
 
+/// Shape of the pooled residuals y − ȳ_c: moments in canonical order, Shapiro–Wilk on
+/// the residuals sorted (built from each cell's sorted values less its mean, so the
+/// parallel sort meets long sorted runs).
+fn residual_shape(design: &Design, fit: &Fit, sorted_cells: &[&[f64]]) -> normality::Shape {
+    let n_cells = design.n_cells();
+    let residuals: Vec<f64> =
+        (0..n_cells).flat_map(|c| design.cell_values(c).iter().map(move |&v| v - fit.mean[c])).collect();
+    let mut sorted: Vec<f64> =
+        (0..n_cells).flat_map(|c| sorted_cells[c].iter().map(move |&v| v - fit.mean[c])).collect();
+    sorted.par_sort_by(f64::total_cmp);
+    normality::shape_given_sorted(&residuals, &sorted)
+}
+
 /// A Shapiro–Wilk result for the results, or `None` if a number is not finite.
 pub fn sw_result(t: normality::SwTest) -> Option<ShapiroWilk> {
     (t.w.is_finite() && t.p.is_finite()).then_some(ShapiroWilk { w: t.w, p: t.p })
@@ -514,6 +538,39 @@ pub fn sw_result(t: normality::SwTest) -> Option<ShapiroWilk> {
 
 fn f_result(t: crate::results::FTest) -> Option<crate::results::FTest> {
     (t.f.is_finite() && t.p.is_finite()).then_some(t)
+}
+
+/// The points whose n-adjusted MAD-score tail level ([`outliers::mad_score_tail`]) is
+/// below `cut`, as (cell, position in the cell, score, tail level) in cell and position
+/// order. The level falls as the score grows, so each sorted cell is walked in from
+/// both ends, the larger distance from the median first, until a point is not below
+/// the cut: O(points found) per cell instead of a tail level for every point.
+fn points_beyond(design: &Design, screens: &[outliers::CellScreen], cut: f64) -> Vec<(usize, usize, f64, f64)> {
+    let mut out = Vec::new();
+    for (c, s) in screens.iter().enumerate() {
+        if s.madn <= 0.0 {
+            continue;
+        }
+        let (sorted, positions) = (design.sorted_cell(c), design.sorted_positions(c));
+        let n = sorted.len();
+        let score = |k: usize| (sorted[k] - s.median).abs() / s.madn;
+        let (mut lo, mut hi) = (0usize, n);
+        while lo < hi {
+            let k = if score(lo) >= score(hi - 1) { lo } else { hi - 1 };
+            let tail = outliers::mad_score_tail(score(k), n);
+            if tail.is_nan() || tail >= cut {
+                break;
+            }
+            out.push((c, positions[k], score(k), tail));
+            if k == lo {
+                lo += 1;
+            } else {
+                hi -= 1;
+            }
+        }
+    }
+    out.sort_by_key(|&(c, i, _, _)| (c, i));
+    out
 }
 
 /// Cells with the largest and smallest variance among `with_var`.
@@ -527,22 +584,38 @@ fn extreme_cells(with_var: &[usize], vars: &[Option<f64>]) -> (usize, usize) {
 /// A flag when the outcome has ties and at most [`DISCRETE_MAX_DISTINCT`] distinct
 /// values (`discrete-outcome`, METHODS §11.2 rule 1) or more than
 /// [`DISCRETE_TIED_SHARE`] tied observations (`many-ties`, METHODS Appendix B);
-/// continuous data never trigger either.
-fn discreteness(y: &[f64]) -> Option<Flag> {
-    let mut s = y.to_vec();
-    s.sort_by(f64::total_cmp);
-    let n = s.len();
-    let mut distinct = 0usize;
-    let mut tied = 0usize;
+/// continuous data never trigger either. Takes every cell sorted.
+fn discreteness(sorted_cells: &[&[f64]]) -> Option<Flag> {
+    use rayon::prelude::*;
+    // Each cell's distinct values with their counts (equal values are adjacent in a
+    // sorted cell), then the same across cells: the data are sorted only as far as they
+    // are distinct.
+    let compress = |sorted: &[f64]| {
+        let mut out: Vec<(f64, usize)> = Vec::new();
+        for &v in sorted {
+            match out.last_mut() {
+                Some((last, count)) if *last == v => *count += 1,
+                _ => out.push((v, 1)),
+            }
+        }
+        out
+    };
+    let per_cell: Vec<Vec<(f64, usize)>> = sorted_cells.par_iter().map(|s| compress(s)).collect();
+    let mut all: Vec<(f64, usize)> = per_cell.concat();
+    all.par_sort_by(|a, b| a.0.total_cmp(&b.0));
+    let n: usize = sorted_cells.iter().map(|s| s.len()).sum();
+    let (mut distinct, mut tied) = (0usize, 0usize);
     let mut i = 0;
-    while i < n {
+    while i < all.len() {
+        let mut count = all[i].1;
         let mut j = i;
-        while j + 1 < n && s[j + 1] == s[i] {
+        while j + 1 < all.len() && all[j + 1].0 == all[i].0 {
             j += 1;
+            count += all[j].1;
         }
         distinct += 1;
-        if j > i {
-            tied += j - i + 1;
+        if count > 1 {
+            tied += count;
         }
         i = j + 1;
     }

@@ -61,6 +61,28 @@ const LARGE_SIGMA: [f64; 3] = [-0.4803, -0.082676, 0.0030302];
 /// tiny constant; practically unreachable, since W that small cannot occur at these n).
 const SMALL_N_FLOOR_P: f64 = 1e-99;
 
+/// [`coefficients`], remembered for a few recent n between 4096 and 262 144 values (cells
+/// of a large design often share their size, and each costs n/2 normal quantiles).
+fn shared_coefficients(n: usize) -> std::sync::Arc<Vec<f64>> {
+    use std::sync::{Arc, Mutex};
+    static RECENT: Mutex<Vec<(usize, Arc<Vec<f64>>)>> = Mutex::new(Vec::new());
+    if !(4096..=262_144).contains(&n) {
+        return Arc::new(coefficients(n));
+    }
+    let found = RECENT.lock().ok().and_then(|r| r.iter().find(|e| e.0 == n).map(|e| Arc::clone(&e.1)));
+    if let Some(a) = found {
+        return a;
+    }
+    let a = Arc::new(coefficients(n));
+    if let Ok(mut recent) = RECENT.lock() {
+        if recent.len() >= 8 {
+            recent.remove(0);
+        }
+        recent.push((n, Arc::clone(&a)));
+    }
+    a
+}
+
 /// The upper half of the antisymmetric coefficients: `a[j]` is the coefficient of the
 /// (n − j)-th order statistic (j = 0 the largest), a_(j+1) = −a[j] for the mirror.
 fn coefficients(n: usize) -> Vec<f64> {
@@ -70,7 +92,14 @@ fn coefficients(n: usize) -> Vec<f64> {
     }
     let nf = n as f64;
     // m_i for the upper half: m_(n−j) = −Φ⁻¹((j + 1 − 3/8)/(n + 1/4)), j = 0..half.
-    let m: Vec<f64> = (0..half).map(|j| -dist::normal_quantile((j as f64 + 1.0 - 0.375) / (nf + 0.25))).collect();
+    let m_j = |j: usize| -dist::normal_quantile((j as f64 + 1.0 - 0.375) / (nf + 0.25));
+    // Each m_j on its own, so splitting the work across threads changes no digit.
+    let m: Vec<f64> = if half >= 16_384 {
+        use rayon::prelude::*;
+        (0..half).into_par_iter().map(m_j).collect()
+    } else {
+        (0..half).map(m_j).collect()
+    };
     let big_m = 2.0 * m.iter().map(|v| v * v).sum::<f64>();
     let u = 1.0 / nf.sqrt();
     let mut a = vec![0.0; half];
@@ -105,31 +134,26 @@ fn coefficients(n: usize) -> Vec<f64> {
 /// [`SwProblem::TooFew`] for n < 3, [`SwProblem::Constant`] when every value is equal.
 /// Above n = 5000 the test is computed and `beyond_validated_n` is set.
 pub fn shapiro_wilk(x: &[f64]) -> Result<SwTest, SwProblem> {
-    let n = x.len();
-    if n < SW_MIN_N {
+    if x.len() < SW_MIN_N {
         return Err(SwProblem::TooFew);
     }
-    let mut s = summary::sorted(x);
-    // Scale by the largest magnitude first (so that extreme values cannot overflow),
-    // then centre at the median (as AS R94's callers do) and scale by the range.
-    let big = s[0].abs().max(s[n - 1].abs());
-    if big > 0.0 && big.is_finite() {
-        for v in &mut s {
-            *v /= big;
-        }
-    }
-    let med = summary::median_sorted(&s);
-    for v in &mut s {
-        *v -= med;
-    }
-    let range = s[n - 1] - s[0];
-    if range.is_nan() || range <= 0.0 || !range.is_finite() {
-        return Err(SwProblem::Constant);
-    }
-    for v in &mut s {
-        *v /= range;
-    }
-    let a_half = coefficients(n);
+    shapiro_wilk_sorted(&summary::sorted(x))
+}
+
+/// Why Shapiro–Wilk cannot run on these values, sorted ascending (`None` when it can):
+/// the checks of [`shapiro_wilk`] without the test, in O(n).
+pub fn sw_problem_sorted(sorted: &[f64]) -> Option<SwProblem> {
+    prepare_sorted(sorted).err()
+}
+
+/// [`shapiro_wilk`] of values already sorted ascending.
+///
+/// # Errors
+/// As [`shapiro_wilk`].
+pub fn shapiro_wilk_sorted(sorted: &[f64]) -> Result<SwTest, SwProblem> {
+    let s = prepare_sorted(sorted)?;
+    let n = s.len();
+    let a_half = shared_coefficients(n);
     // Full antisymmetric coefficient vector in ascending order of x.
     let coef = |i: usize| -> f64 {
         let j = n - 1 - i; // position from the top
@@ -180,6 +204,36 @@ pub fn shapiro_wilk(x: &[f64]) -> Result<SwTest, SwProblem> {
     Ok(SwTest { w, p: if p.is_nan() { 1.0 } else { p }, beyond_validated_n: n > SW_MAX_VALIDATED_N })
 }
 
+/// The sorted values scaled by their largest magnitude, centred at the median and
+/// divided by the range, as AS R94 computes W; the errors of [`shapiro_wilk`].
+fn prepare_sorted(sorted: &[f64]) -> Result<Vec<f64>, SwProblem> {
+    let n = sorted.len();
+    if n < SW_MIN_N {
+        return Err(SwProblem::TooFew);
+    }
+    let mut s = sorted.to_vec();
+    // Scale by the largest magnitude first (so that extreme values cannot overflow),
+    // then centre at the median (as AS R94's callers do) and scale by the range.
+    let big = s[0].abs().max(s[n - 1].abs());
+    if big > 0.0 && big.is_finite() {
+        for v in &mut s {
+            *v /= big;
+        }
+    }
+    let med = summary::median_sorted(&s);
+    for v in &mut s {
+        *v -= med;
+    }
+    let range = s[n - 1] - s[0];
+    if range.is_nan() || range <= 0.0 || !range.is_finite() {
+        return Err(SwProblem::Constant);
+    }
+    for v in &mut s {
+        *v /= range;
+    }
+    Ok(s)
+}
+
 /// Shape of a sample: bias-adjusted skewness and excess kurtosis with their standard
 /// errors under normality (Joanes & Gill 1998, METHODS §2.1), and Shapiro–Wilk.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -200,6 +254,12 @@ pub struct Shape {
 
 /// The [`Shape`] of `x`.
 pub fn shape(x: &[f64]) -> Shape {
+    shape_given_sorted(x, &summary::sorted(x))
+}
+
+/// The [`Shape`] of `x` given the same values sorted ascending (moments from `x` in
+/// its own order, Shapiro–Wilk from `sorted`).
+pub fn shape_given_sorted(x: &[f64], sorted: &[f64]) -> Shape {
     let n = x.len();
     Shape {
         n,
@@ -207,7 +267,7 @@ pub fn shape(x: &[f64]) -> Shape {
         skewness_se: summary::skewness_se(n),
         excess_kurtosis: summary::excess_kurtosis(x).filter(|v| v.is_finite()),
         excess_kurtosis_se: summary::excess_kurtosis_se(n),
-        shapiro_wilk: shapiro_wilk(x),
+        shapiro_wilk: shapiro_wilk_sorted(sorted),
     }
 }
 

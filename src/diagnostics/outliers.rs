@@ -80,6 +80,24 @@ pub struct CellScreen {
 }
 
 impl CellScreen {
+    /// The screening counts of the cell (as [`screen_sorted`] gives them), from this
+    /// screen and the cell's values sorted ascending.
+    pub fn counts(&self, sorted: &[f64]) -> ScreenCounts {
+        let max_mad_score = match (sorted.first(), sorted.last()) {
+            (Some(&lo), Some(&hi)) if self.madn > 0.0 => {
+                (self.median - lo.min(self.median)).max(hi.max(self.median) - self.median) / self.madn
+            }
+            _ => f64::NAN,
+        };
+        ScreenCounts {
+            outside: self.outside.len() as u32,
+            far: self.far.len() as u32,
+            mad: self.mad.as_ref().map_or(0, |m| m.len() as u32),
+            madn: self.madn,
+            max_mad_score,
+        }
+    }
+
     /// IQR = Q3 − Q1.
     pub fn iqr(&self) -> f64 {
         self.q3 - self.q1
@@ -115,17 +133,45 @@ pub struct ScreenCounts {
     pub max_mad_score: f64,
 }
 
-/// Quartiles, median and MADN of sorted data; `scratch` is overwritten.
+/// Quartiles, median and MADN of sorted data, in O(log n) beyond the quartiles.
 /// MADN = median|x − M| / Φ⁻¹(0.75) (METHODS §2.4).
-pub fn robust_summary(sorted: &[f64], scratch: &mut Vec<f64>) -> (f64, f64, f64, f64) {
+pub fn robust_summary(sorted: &[f64]) -> (f64, f64, f64, f64) {
     let q1 = summary::quantile_type7(sorted, 0.25);
     let q3 = summary::quantile_type7(sorted, 0.75);
     let m = summary::median_sorted(sorted);
-    scratch.clear();
-    scratch.extend(sorted.iter().map(|x| (x - m).abs()));
-    scratch.sort_unstable_by(f64::total_cmp);
-    let madn = summary::median_sorted(scratch) / MAD_NORMAL_SCALE;
-    (q1, q3, m, madn)
+    let n = sorted.len();
+    let mad = match n {
+        0 => f64::NAN,
+        _ if n % 2 == 1 => kth_abs_deviation(sorted, m, n / 2),
+        _ => 0.5 * (kth_abs_deviation(sorted, m, n / 2 - 1) + kth_abs_deviation(sorted, m, n / 2)),
+    };
+    (q1, q3, m, mad / MAD_NORMAL_SCALE)
+}
+
+/// The k-th smallest (0-based) of |x − m| over `sorted` (ascending, finite), without
+/// forming the deviations: the values below m read from m outwards and those at or
+/// above m are two ascending sequences, and the k-th smallest of two sorted sequences
+/// is found by bisecting how many of the k + 1 smallest come from the first. O(log n).
+fn kth_abs_deviation(sorted: &[f64], m: f64, k: usize) -> f64 {
+    let p = sorted.partition_point(|&x| x < m);
+    let (na, nb) = (p, sorted.len() - p);
+    let a = |i: usize| (sorted[p - 1 - i] - m).abs();
+    let b = |j: usize| (sorted[p + j] - m).abs();
+    let (mut lo, mut hi) = ((k + 1).saturating_sub(nb), (k + 1).min(na));
+    while lo < hi {
+        let i = (lo + hi) / 2;
+        if a(i) < b(k - i) {
+            lo = i + 1;
+        } else {
+            hi = i;
+        }
+    }
+    let (i, j) = (lo, k + 1 - lo);
+    match (i > 0, j > 0) {
+        (true, true) => a(i - 1).max(b(j - 1)),
+        (true, false) => a(i - 1),
+        _ => b(j - 1),
+    }
 }
 
 /// The k-th and (k+1)-th smallest values (0-based) of `v`, reordering `v`; the second
@@ -181,9 +227,9 @@ pub fn screen_unsorted(work: &mut [f64], scratch: &mut Vec<f64>) -> ScreenCounts
     counts_from(work, q1, q3, m, madn)
 }
 
-/// Screening counts of one cell given sorted values (no allocation beyond `scratch`).
-pub fn screen_sorted(sorted: &[f64], scratch: &mut Vec<f64>) -> ScreenCounts {
-    let (q1, q3, m, madn) = robust_summary(sorted, scratch);
+/// Screening counts of one cell given sorted values (allocates nothing).
+pub fn screen_sorted(sorted: &[f64]) -> ScreenCounts {
+    let (q1, q3, m, madn) = robust_summary(sorted);
     counts_from(sorted, q1, q3, m, madn)
 }
 
@@ -220,9 +266,12 @@ fn counts_from(values: &[f64], q1: f64, q3: f64, m: f64, madn: f64) -> ScreenCou
 /// the MAD–median rule does not apply (`mad = None`). An empty cell gives NaN
 /// summaries and no points.
 pub fn screen(values: &[f64]) -> CellScreen {
-    let s = summary::sorted(values);
-    let mut scratch = Vec::with_capacity(s.len());
-    let (q1, q3, median, madn) = robust_summary(&s, &mut scratch);
+    screen_given_sorted(values, &summary::sorted(values))
+}
+
+/// [`screen`] given the same values sorted ascending (positions refer to `values`).
+pub fn screen_given_sorted(values: &[f64], sorted: &[f64]) -> CellScreen {
+    let (q1, q3, median, madn) = robust_summary(sorted);
     let iqr = q3 - q1;
     let beyond = |k: f64| -> Vec<usize> {
         let (lo, hi) = (q1 - k * iqr, q3 + k * iqr);
@@ -260,6 +309,33 @@ mod tests {
     use super::*;
 
     #[test]
+    fn abs_deviation_order_statistics_match_sorting() {
+        let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+        for case in 0..400 {
+            let n = 1 + case % 37;
+            let mut v: Vec<f64> = (0..n)
+                .map(|_| {
+                    x ^= x << 13;
+                    x ^= x >> 7;
+                    x ^= x << 17;
+                    if case % 3 == 0 {
+                        (x % 5) as f64 // heavy ties, values equal to the median
+                    } else {
+                        (x % 100_000) as f64 / 997.0 - 40.0
+                    }
+                })
+                .collect();
+            v.sort_by(f64::total_cmp);
+            let m = summary::median_sorted(&v);
+            let mut d: Vec<f64> = v.iter().map(|y| (y - m).abs()).collect();
+            d.sort_by(f64::total_cmp);
+            for (k, &want) in d.iter().enumerate() {
+                assert_eq!(kth_abs_deviation(&v, m, k).to_bits(), want.to_bits(), "n {n}, k {k}, {v:?}");
+            }
+        }
+    }
+
+    #[test]
     fn methods_12_1_cell_a2b1() {
         // METHODS §12.1: cell a2b1, fences 8.95 and 10.55 (type 7), Tukey 1.5 and the
         // MAD–median rule flag only 13.8 (position 0); MADN = 0.3706505546.
@@ -279,7 +355,7 @@ mod tests {
         let v = [13.8, 9.6, 9.4, 9.9, 9.2, 10.1, 9.8, 9.9, 2.0];
         let s = screen(&v);
         let mut scratch = Vec::new();
-        let c = screen_sorted(&summary::sorted(&v), &mut scratch);
+        let c = screen_sorted(&summary::sorted(&v));
         assert_eq!(c.outside as usize, s.outside.len());
         assert_eq!(c.far as usize, s.far.len());
         assert_eq!(c.mad as usize, s.flagged(Rule::MadMedian).len());
@@ -293,7 +369,7 @@ mod tests {
         ] {
             let mut work = data.clone();
             let u = screen_unsorted(&mut work, &mut scratch);
-            let t = screen_sorted(&summary::sorted(&data), &mut scratch);
+            let t = screen_sorted(&summary::sorted(&data));
             assert_eq!((u.outside, u.far, u.mad, u.madn), (t.outside, t.far, t.mad, t.madn), "{data:?}");
             assert!(u.max_mad_score == t.max_mad_score || (u.max_mad_score.is_nan() && t.max_mad_score.is_nan()));
         }

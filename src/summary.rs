@@ -194,12 +194,14 @@ fn central_moments(x: &[f64]) -> (f64, f64, f64) {
 /// (Joanes & Gill 1998, The Statistician 47:183–189; scipy `skew(bias=False)`).
 /// `None` for n < 3 or constant data.
 pub fn skewness(x: &[f64]) -> Option<f64> {
-    let n = x.len();
-    if n < 3 {
+    if x.len() < 3 {
         return None;
     }
-    let (m2, m3, _) = central_moments(x);
-    if m2 <= 0.0 {
+    skewness_from(x.len(), central_moments(x))
+}
+
+fn skewness_from(n: usize, (m2, m3, _): (f64, f64, f64)) -> Option<f64> {
+    if n < 3 || m2 <= 0.0 {
         return None;
     }
     let nf = n as f64;
@@ -207,15 +209,27 @@ pub fn skewness(x: &[f64]) -> Option<f64> {
     Some(g1 * (nf * (nf - 1.0)).sqrt() / (nf - 2.0))
 }
 
+/// [`skewness`] and [`excess_kurtosis`] from one pass of central moments (the same
+/// numbers as the two calls).
+pub fn skewness_and_kurtosis(x: &[f64]) -> (Option<f64>, Option<f64>) {
+    if x.len() < 3 {
+        return (None, None);
+    }
+    let moments = central_moments(x);
+    (skewness_from(x.len(), moments), kurtosis_from(x.len(), moments))
+}
+
 /// Bias-adjusted excess kurtosis G2 = [(n+1)g2 + 6](n−1)/((n−2)(n−3)), g2 = m4/m2² − 3
 /// (Joanes & Gill 1998; scipy `kurtosis(bias=False)`). `None` for n < 4 or constant data.
 pub fn excess_kurtosis(x: &[f64]) -> Option<f64> {
-    let n = x.len();
-    if n < 4 {
+    if x.len() < 4 {
         return None;
     }
-    let (m2, _, m4) = central_moments(x);
-    if m2 <= 0.0 {
+    kurtosis_from(x.len(), central_moments(x))
+}
+
+fn kurtosis_from(n: usize, (m2, _, m4): (f64, f64, f64)) -> Option<f64> {
+    if n < 4 || m2 <= 0.0 {
         return None;
     }
     let nf = n as f64;
@@ -246,6 +260,15 @@ pub fn excess_kurtosis_se(n: usize) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn one_moment_pass_gives_both_shapes_exactly() {
+        for x in [vec![1.0, 2.0, 4.0, 8.0, 16.5, -3.0], vec![0.1, 0.2, 0.3], vec![5.0, 5.0, 5.0, 5.0], vec![1.0, 2.0]] {
+            let (g1, g2) = skewness_and_kurtosis(&x);
+            assert_eq!(g1.map(f64::to_bits), skewness(&x).map(f64::to_bits));
+            assert_eq!(g2.map(f64::to_bits), excess_kurtosis(&x).map(f64::to_bits));
+        }
+    }
 
     #[test]
     fn type7_quantiles_match_numpy_linear() {

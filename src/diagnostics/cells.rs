@@ -23,6 +23,7 @@ pub fn cell_table(design: &Design, trim: f64, ci_level: f64) -> Vec<CellSummary>
             let sorted = design.sorted_cell(c);
             let n = v.len();
             let order = summary::order_summary_sorted(sorted, trim);
+            let (skewness, excess_kurtosis) = summary::skewness_and_kurtosis(v);
             let mean = mean_two_pass(v);
             let sd = summary::variance(v).sqrt();
             let se = sd / (n as f64).sqrt();
@@ -41,9 +42,9 @@ pub fn cell_table(design: &Design, trim: f64, ci_level: f64) -> Vec<CellSummary>
                 trimmed_mean: loc + order.trimmed_mean,
                 trim,
                 winsorized_sd: finite(order.winsorized_variance.sqrt()),
-                skewness: summary::skewness(v),
+                skewness,
                 skewness_se: summary::skewness_se(n),
-                excess_kurtosis: summary::excess_kurtosis(v),
+                excess_kurtosis,
                 excess_kurtosis_se: summary::excess_kurtosis_se(n),
                 min: loc + order.min,
                 max: loc + order.max,

@@ -455,8 +455,8 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     let beyond: Vec<String> = (0..n_cells)
         .filter(|&c| {
             let v = cell_slices[c];
-            let g1 = crate::summary::skewness(v).unwrap_or(0.0);
-            let g2 = crate::summary::excess_kurtosis(v).unwrap_or(0.0);
+            let (g1, g2) = crate::summary::skewness_and_kurtosis(v);
+            let (g1, g2) = (g1.unwrap_or(0.0), g2.unwrap_or(0.0));
             g1.abs() > COMMON_PRACTICE_SHAPE_LIMIT || g2.abs() > COMMON_PRACTICE_SHAPE_LIMIT
         })
         .map(|c| names[c].clone())

@@ -261,11 +261,12 @@ pub fn shape(x: &[f64]) -> Shape {
 /// its own order, Shapiro–Wilk from `sorted`).
 pub fn shape_given_sorted(x: &[f64], sorted: &[f64]) -> Shape {
     let n = x.len();
+    let (g1, g2) = summary::skewness_and_kurtosis(x);
     Shape {
         n,
-        skewness: summary::skewness(x).filter(|v| v.is_finite()),
+        skewness: g1.filter(|v| v.is_finite()),
         skewness_se: summary::skewness_se(n),
-        excess_kurtosis: summary::excess_kurtosis(x).filter(|v| v.is_finite()),
+        excess_kurtosis: g2.filter(|v| v.is_finite()),
         excess_kurtosis_se: summary::excess_kurtosis_se(n),
         shapiro_wilk: shapiro_wilk_sorted(sorted),
     }

@@ -300,12 +300,31 @@ pub struct CalibratedCheck {
 pub struct Calibration {
     /// The method in words.
     pub method: String,
+    /// `simulation` (R normal datasets of these cell sizes, value by value) or
+    /// `large-sample` (R draws of the statistics from their large-sample distributions,
+    /// used when every cell has at least 1000 values).
+    pub reference: String,
     /// Simulated datasets R.
     pub datasets: u64,
     /// A flag fires when its null p is at most this.
     pub level: f64,
     /// Each calibrated statistic.
     pub checks: Vec<CalibratedCheck>,
+}
+
+impl Calibration {
+    /// What the flags were compared with, e.g. "1999 simulated normal, equal-variance
+    /// datasets with these cell sizes".
+    pub fn against(&self) -> String {
+        if self.reference == "large-sample" {
+            format!(
+                "{} draws from the statistics' large-sample distributions for normal, equal-variance data with these cell sizes",
+                self.datasets
+            )
+        } else {
+            format!("{} simulated normal, equal-variance datasets with these cell sizes", self.datasets)
+        }
+    }
 }
 
 /// Decision of one engine on one term.

@@ -472,8 +472,28 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
             beyond.join("; ")
         )
     });
+    let calibration = Calibration {
+        method: match reference.method {
+            NullMethod::Simulation => format!(
+                "Monte Carlo test against {datasets} simulated datasets with normal errors, equal variances and these cell sizes (seeded, reproducible); p = (1 + #{{simulated ≥ observed}})/(R + 1)"
+            ),
+            NullMethod::LargeSample => format!(
+                "Monte Carlo test against {datasets} draws of the statistics from their large-sample distributions under normal errors, equal variances and these cell sizes (every cell has at least {} observations; seeded, reproducible); p = (1 + #{{simulated ≥ observed}})/(R + 1)",
+                large_sample::LARGE_CELL
+            ),
+        },
+        reference: match reference.method {
+            NullMethod::Simulation => "simulation",
+            NullMethod::LargeSample => "large-sample",
+        }
+        .to_string(),
+        datasets,
+        level: FLAG_LEVEL,
+        checks,
+    };
     notes.push(format!(
-        "flags are calibrated: each compares a statistic with {datasets} simulated normal, equal-variance datasets with these cell sizes and fires only when p ≤ {FLAG_LEVEL}; Shapiro–Wilk and Levene p-values are information, not decisions"
+        "flags are calibrated: each compares a statistic with {} and fires only when p ≤ {FLAG_LEVEL}; Shapiro–Wilk and Levene p-values are information, not decisions",
+        calibration.against()
     ));
     notes.push(
         "the pooled residuals are not independent (each cell's residuals sum to zero), so their Shapiro–Wilk p is descriptive"
@@ -499,20 +519,7 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
         n_variance_spearman: n_variance_spearman.and_then(finite),
         quantile_definition: outliers::QUANTILE_DEFINITION.to_string(),
         cells: cells_out,
-        calibration: Some(Calibration {
-            method: match reference.method {
-                NullMethod::Simulation => format!(
-                    "Monte Carlo test against {datasets} simulated datasets with normal errors, equal variances and these cell sizes (seeded, reproducible); p = (1 + #{{simulated ≥ observed}})/(R + 1)"
-                ),
-                NullMethod::LargeSample => format!(
-                    "Monte Carlo test against {datasets} draws of the statistics from their large-sample distributions under normal errors, equal variances and these cell sizes (every cell has at least {} observations; seeded, reproducible); p = (1 + #{{simulated ≥ observed}})/(R + 1)",
-                    large_sample::LARGE_CELL
-                ),
-            },
-            datasets,
-            level: FLAG_LEVEL,
-            checks,
-        }),
+        calibration: Some(calibration),
         notes,
     };
     Diagnosis { diagnostics, far, mad }

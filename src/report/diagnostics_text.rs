@@ -133,11 +133,7 @@ pub fn diagnostics(a: &Analysis, out: &mut dyn Write) -> io::Result<()> {
     writeln!(out)?;
 
     if let Some(cal) = &d.calibration {
-        writeln!(
-            out,
-            "Calibrated checks (each against {} simulated normal, equal-variance datasets with these cell sizes; a flag needs p ≤ {})",
-            cal.datasets, cal.level
-        )?;
+        writeln!(out, "Calibrated checks (each against {}; a flag needs p ≤ {})", cal.against(), cal.level)?;
         let mut t = Table::new(&[
             ("statistic", Align::Left),
             ("observed", Align::Right),

@@ -188,12 +188,9 @@ fn data_and_design(a: &Analysis, b: &mut Vec<Block>) {
 
 fn diagnostics(a: &Analysis, b: &mut Vec<Block>) {
     let d = &a.diagnostics;
-    let datasets = d.calibration.as_ref().map(|c| c.datasets).unwrap_or(0);
+    let against = d.calibration.as_ref().map(|c| c.against()).unwrap_or_else(|| "nothing (no calibration)".into());
     b.push(Block::Heading("Diagnostics".into()));
-    b.push(Block::Para(Inline::new().add(
-        Style::Muted,
-        format!("flags compare each statistic with {datasets} simulated normal, equal-variance datasets with these cell sizes"),
-    )));
+    b.push(Block::Para(Inline::new().add(Style::Muted, format!("flags compare each statistic with {against}"))));
     if d.flags.is_empty() {
         b.push(Block::Lines(vec![Inline::plain(
             "no flag: nothing here is beyond what normal, equal-variance data with these cell sizes produce",

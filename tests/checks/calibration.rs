@@ -337,3 +337,29 @@ fn diagnostics_do_not_depend_on_the_thread_count() {
     assert_eq!(one, run(2));
     assert_eq!(one, run(8));
 }
+
+#[test]
+fn results_name_the_reference_that_ran() {
+    // Invented clean data: 2 × 2 with 1000 per cell uses the large-sample reference, 2 × 2
+    // with 999 in one cell the exact simulation.
+    for (sizes, reference) in [([1000usize; 4], "large-sample"), ([1000, 1000, 999, 1000], "simulation")] {
+        let mut stream =
+            Stream::new(3, StreamKey { purpose: Purpose::Auxiliary, term: 0, chunk: 0, aux: AUX_CLEAN_DATA });
+        let cells: Vec<Vec<f64>> = sizes
+            .iter()
+            .map(|&n| {
+                let mut v = vec![0.0; n];
+                fill_normal(&mut stream, &mut v);
+                v
+            })
+            .collect();
+        let design = Design::from_cells("y", vec![factor("A", 2), factor("B", 2)], &cells).unwrap();
+        let fit = Fit::new(&design);
+        let d = quorum::diagnostics::diagnose(&design, &fit, DEFAULT_SEED).diagnostics;
+        let cal = d.calibration.unwrap();
+        assert_eq!(cal.reference, reference);
+        assert_eq!(cal.datasets, 1999);
+        let word = if reference == "large-sample" { "large-sample distributions" } else { "simulated normal" };
+        assert!(cal.against().contains(word) && d.notes.iter().any(|n| n.contains(word)), "{:?}", d.notes);
+    }
+}

@@ -783,6 +783,57 @@ mod tests {
     use super::*;
     use crate::design::Factor;
 
+    /// The merged Q-Q plot against sorting every (residual, line) pair, on rows whose
+    /// cells interleave in the file and whose values tie heavily within and across cells.
+    #[test]
+    fn merged_qq_plot_equals_sorting_every_point() {
+        for rows in [900usize, 4000] {
+            let mut csv = String::from("a,b,y\n");
+            let mut x: u64 = 0x9E37_79B9_7F4A_7C15 ^ rows as u64;
+            for i in 0..rows {
+                x ^= x << 13;
+                x ^= x >> 7;
+                x ^= x << 17;
+                let (a, b) = (["p", "q"][i % 2], ["r", "s", "t"][(i / 2) % 3]);
+                csv.push_str(&format!("{a},{b},{}\n", (x % 9) as f64 * 0.5));
+            }
+            let spec = crate::config::DataSpec::new(crate::config::Source::Stdin, "y", &["a", "b"]);
+            let loc = crate::error::Location::file("t.csv");
+            let obs = crate::data::parse(csv.as_bytes(), &spec, "t.csv", &loc).unwrap();
+            let design = Design::build(&obs, &spec).unwrap();
+            let fit = Fit::new(&design);
+            let (_, qq) = residual_plots(&design, &fit);
+            let qq = qq.unwrap();
+            // Every point, sorted by (residual, line).
+            let mse = fit.mse();
+            let mut all: Vec<(f64, u64)> = Vec::new();
+            for c in 0..design.n_cells() {
+                let n = design.cell_values(c).len() as f64;
+                let scale = (mse * (1.0 - 1.0 / n)).sqrt();
+                let start = design.cell_range(c).start;
+                for (i, &v) in design.cell_values(c).iter().enumerate() {
+                    all.push(((v - fit.mean[c]) / scale, design.lines()[start + i]));
+                }
+            }
+            all.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+            assert_eq!(qq.n, all.len());
+            let ranks: Vec<usize> = if all.len() <= QQ_POINTS_MAX {
+                (0..all.len()).collect()
+            } else {
+                let inner = all.len() - 2 * QQ_TAIL_KEEP;
+                let mut r: Vec<usize> = (0..QQ_TAIL_KEEP).collect();
+                r.extend(even_ranks(inner, QQ_POINTS_MAX - 2 * QQ_TAIL_KEEP).map(|k| QQ_TAIL_KEEP + k));
+                r.extend(all.len() - QQ_TAIL_KEEP..all.len());
+                r.dedup();
+                r
+            };
+            assert_eq!(qq.points.len(), ranks.len());
+            for (p, &k) in qq.points.iter().zip(&ranks) {
+                assert_eq!((p.standardized.to_bits(), p.line), (all[k].0.to_bits(), all[k].1), "rows {rows}, rank {k}");
+            }
+        }
+    }
+
     fn factor(name: &str, levels: &[&str]) -> Factor {
         Factor { name: name.into(), levels: levels.iter().map(|s| s.to_string()).collect(), measured: false }
     }

@@ -480,21 +480,47 @@ impl Design {
         })
     }
 
+    /// Sorts every cell on first use. The cells are shared out to plain scoped threads
+    /// (as many as the rayon pool has), not to rayon: a rayon worker that waits inside
+    /// this initialiser could otherwise pick up a queued task that asks for the sorted
+    /// cells again and block on itself. Each cell is sorted on its own, so the result
+    /// does not depend on the thread count.
     fn sorted_cells(&self) -> &SortedCells {
         self.sorted.get_or_init(|| {
-            use rayon::prelude::*;
-            let per_cell: Vec<Vec<(u64, usize)>> = (0..self.n_cells())
-                .into_par_iter()
-                .map(|c| {
-                    let keyed: Vec<(u64, usize)> = self
-                        .cell_values(c)
-                        .iter()
-                        .enumerate()
-                        .map(|(i, &v)| (crate::summary::total_order_key(v), i))
+            let n_cells = self.n_cells();
+            let sort_cell = |c: usize| {
+                let keyed: Vec<(u64, usize)> = self
+                    .cell_values(c)
+                    .iter()
+                    .enumerate()
+                    .map(|(i, &v)| (crate::summary::total_order_key(v), i))
+                    .collect();
+                radix_sort(keyed)
+            };
+            let threads = rayon::current_num_threads().clamp(1, n_cells.max(1));
+            let mut per_cell: Vec<Vec<(u64, usize)>> = vec![Vec::new(); n_cells];
+            if threads == 1 || self.y.len() < 65_536 {
+                for (c, slot) in per_cell.iter_mut().enumerate() {
+                    *slot = sort_cell(c);
+                }
+            } else {
+                std::thread::scope(|scope| {
+                    let handles: Vec<_> = (0..threads)
+                        .map(|t| {
+                            let sort_cell = &sort_cell;
+                            scope.spawn(move || {
+                                (t..n_cells).step_by(threads).map(|c| (c, sort_cell(c))).collect::<Vec<_>>()
+                            })
+                        })
                         .collect();
-                    radix_sort(keyed)
-                })
-                .collect();
+                    for h in handles {
+                        // A panic in a sorting thread is a bug; re-raise it here.
+                        for (c, sorted) in h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)) {
+                            per_cell[c] = sorted;
+                        }
+                    }
+                });
+            }
             let mut values = Vec::with_capacity(self.y.len());
             let mut order = Vec::with_capacity(self.y.len());
             for (c, keyed) in per_cell.iter().enumerate() {
@@ -507,7 +533,7 @@ impl Design {
     }
 
     /// Cell `c`'s centred values in ascending order (`f64::total_cmp`). All cells are
-    /// sorted together, in parallel, on the first call.
+    /// sorted together, in parallel, on the first call (safe to call from rayon tasks).
     pub fn sorted_cell(&self, c: usize) -> &[f64] {
         &self.sorted_cells().values[self.cell_range(c)]
     }
@@ -594,6 +620,51 @@ fn check_spellings(col: &FactorColumn, loc: &Location) -> Result<()> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::config::Source;
+
+    #[test]
+    fn sorted_cells_from_inside_rayon_tasks_on_any_pool() {
+        // 16 cells of 5000 values: large enough for the threaded sort. Asked for first
+        // from inside parallel tasks (which must not block on themselves); the same
+        // result on 1 and 8 threads.
+        let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+        let cells: Vec<Vec<f64>> = (0..16)
+            .map(|_| {
+                (0..5000)
+                    .map(|_| {
+                        x ^= x << 13;
+                        x ^= x >> 7;
+                        x ^= x << 17;
+                        (x % 2000) as f64 / 8.0 - 100.0
+                    })
+                    .collect()
+            })
+            .collect();
+        let factors = vec![
+            Factor { name: "A".into(), levels: (0..4).map(|i| format!("a{i}")).collect(), measured: false },
+            Factor { name: "B".into(), levels: (0..4).map(|i| format!("b{i}")).collect(), measured: false },
+        ];
+        let run = |threads: usize| {
+            let design = Design::from_cells("y", factors.clone(), &cells).unwrap();
+            let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap();
+            pool.install(|| {
+                use rayon::prelude::*;
+                (0..16)
+                    .into_par_iter()
+                    .map(|c| (design.sorted_cell(c).to_vec(), design.sorted_positions(c).to_vec()))
+                    .collect::<Vec<_>>()
+            })
+        };
+        let (one, eight) = (run(1), run(8));
+        assert_eq!(one, eight);
+        for (c, (sorted, positions)) in one.iter().enumerate() {
+            let mut want = cells[c].clone();
+            want.sort_by(f64::total_cmp);
+            assert_eq!(sorted, &want);
+            assert!(positions.iter().zip(sorted).all(|(&i, &v)| cells[c][i] == v));
+            assert!(positions.windows(2).zip(sorted.windows(2)).all(|(p, v)| v[0] < v[1] || p[0] < p[1]));
+        }
+    }
 
     #[test]
     fn radix_sort_matches_the_comparison_sort() {
@@ -621,7 +692,6 @@ mod tests {
         by_value.sort_by(|&a, &b| values[a].total_cmp(&values[b]).then(a.cmp(&b)));
         assert_eq!(expected.iter().map(|p| p.1).collect::<Vec<_>>(), by_value);
     }
-    use crate::config::Source;
 
     fn spec(factors: &[&str]) -> DataSpec {
         DataSpec::new(Source::Stdin, "y", factors)

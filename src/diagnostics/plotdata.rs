@@ -497,7 +497,8 @@ impl QqRun<'_> {
         let mut end = start + 1;
         let mut mixed = false;
         while self.residual(end).is_some_and(|r| r == r0) {
-            mixed |= self.sorted[end] != x0;
+            // Bitwise: −0 and +0 are different values whose residuals may coincide.
+            mixed |= self.sorted[end].to_bits() != x0.to_bits();
             end += 1;
         }
         if !mixed {

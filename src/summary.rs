@@ -24,6 +24,84 @@ pub fn total_order_key(v: f64) -> u64 {
     }
 }
 
+/// Sorted runs merged: `items[bounds[k]..bounds[k + 1]]` is ascending in `key` for
+/// every k (`bounds` starts at 0 and ends at `items.len()`); returns every item in
+/// ascending order of `key`, items of equal key in run order (a stable merge).
+/// Neighbouring runs are merged in pairs, level by level, and a long merge is split in
+/// two at its middle rank, the halves side by side on the rayon pool; the result does
+/// not depend on the number of threads.
+pub fn merge_sorted_runs<T, K>(items: Vec<T>, bounds: &[usize], key: K) -> Vec<T>
+where
+    T: Copy + Default + Send + Sync,
+    K: Fn(&T) -> u64 + Copy + Send + Sync,
+{
+    use rayon::prelude::*;
+    let mut bounds: Vec<usize> = bounds.to_vec();
+    let mut a = items;
+    let mut b = vec![T::default(); a.len()];
+    while bounds.len() > 2 {
+        let runs = bounds.len() - 1;
+        let mut jobs: Vec<(&[T], &[T], &mut [T])> = Vec::with_capacity(runs.div_ceil(2));
+        let mut out_rest = b.as_mut_slice();
+        for k in (0..runs).step_by(2) {
+            let (start, mid, end) = (bounds[k], bounds[(k + 1).min(runs)], bounds[(k + 2).min(runs)]);
+            let (out, tail) = out_rest.split_at_mut(end - start);
+            out_rest = tail;
+            jobs.push((&a[start..mid], &a[mid..end], out));
+        }
+        jobs.into_par_iter().for_each(|(left, right, out)| merge_into(left, right, out, key));
+        bounds = bounds.iter().copied().step_by(2).chain((runs % 2 == 1).then_some(bounds[runs])).collect();
+        std::mem::swap(&mut a, &mut b);
+    }
+    a
+}
+
+/// Merges two runs ascending in `key` into `out` (left first among equal keys),
+/// splitting long merges at the middle output rank for the rayon pool.
+fn merge_into<T, K>(left: &[T], right: &[T], out: &mut [T], key: K)
+where
+    T: Copy + Send + Sync,
+    K: Fn(&T) -> u64 + Copy + Send + Sync,
+{
+    const SPLIT: usize = 1 << 16;
+    if out.len() > SPLIT && !left.is_empty() && !right.is_empty() {
+        let p = out.len() / 2;
+        let i = co_rank(left, right, p, key);
+        let (left_lo, left_hi) = left.split_at(i);
+        let (right_lo, right_hi) = right.split_at(p - i);
+        let (out_lo, out_hi) = out.split_at_mut(p);
+        rayon::join(|| merge_into(left_lo, right_lo, out_lo, key), || merge_into(left_hi, right_hi, out_hi, key));
+        return;
+    }
+    let (mut i, mut j) = (0, 0);
+    let mut k = 0;
+    while i < left.len() && j < right.len() {
+        let take_right = key(&right[j]) < key(&left[i]);
+        out[k] = if take_right { right[j] } else { left[i] };
+        j += usize::from(take_right);
+        i += usize::from(!take_right);
+        k += 1;
+    }
+    out[k..k + left.len() - i].copy_from_slice(&left[i..]);
+    k += left.len() - i;
+    out[k..].copy_from_slice(&right[j..]);
+}
+
+/// How many of the first `p` merged items come from `left` (left first among equal
+/// keys): the smallest i with left[i] after right[p − i − 1].
+fn co_rank<T>(left: &[T], right: &[T], p: usize, key: impl Fn(&T) -> u64) -> usize {
+    let (mut lo, mut hi) = (p.saturating_sub(right.len()), p.min(left.len()));
+    while lo < hi {
+        let i = lo + (hi - lo) / 2;
+        if key(&left[i]) <= key(&right[p - i - 1]) {
+            lo = i + 1;
+        } else {
+            hi = i;
+        }
+    }
+    lo
+}
+
 /// Quantile of sorted data, Hyndman & Fan (1996, The American Statistician 50:361–365)
 /// type 7: h = (n − 1)p + 1, Q = x_(⌊h⌋) + (h − ⌊h⌋)(x_(⌊h⌋+1) − x_(⌊h⌋)).
 /// NaN for empty data or p outside [0, 1].
@@ -260,6 +338,45 @@ pub fn excess_kurtosis_se(n: usize) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn merging_sorted_runs_equals_a_stable_sort_on_any_thread_count() {
+        // Runs of very unequal lengths (one empty, one of a single value), values tied
+        // within and across runs, signed zeros; long enough for the split merges.
+        let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+        let lengths = [70_000usize, 3, 0, 41_000, 1, 150_000, 9];
+        let mut items: Vec<(f64, u32)> = Vec::new();
+        let mut bounds = vec![0];
+        for (r, &n) in lengths.iter().enumerate() {
+            let mut run: Vec<f64> = (0..n)
+                .map(|i| {
+                    x ^= x << 13;
+                    x ^= x >> 7;
+                    x ^= x << 17;
+                    match i % 5 {
+                        0 => -0.0,
+                        1 => 0.0,
+                        _ => (x % 400) as f64 / 4.0 - 50.0,
+                    }
+                })
+                .collect();
+            run.sort_by(f64::total_cmp);
+            items.extend(run.into_iter().map(|v| (v, r as u32)));
+            bounds.push(items.len());
+        }
+        let mut want = items.clone();
+        want.sort_by(|a, b| a.0.total_cmp(&b.0)); // stable: equal values stay in run order
+        let want: Vec<(u64, u32)> = want.iter().map(|e| (e.0.to_bits(), e.1)).collect();
+        for threads in [1, 2, 5] {
+            let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap();
+            let got = pool.install(|| merge_sorted_runs(items.clone(), &bounds, |e: &(f64, u32)| total_order_key(e.0)));
+            let got: Vec<(u64, u32)> = got.iter().map(|e| (e.0.to_bits(), e.1)).collect();
+            assert_eq!(got, want, "{threads} threads");
+        }
+        // One run, and none.
+        assert_eq!(merge_sorted_runs(vec![1.0, 2.0], &[0, 2], |&v: &f64| total_order_key(v)), vec![1.0, 2.0]);
+        assert!(merge_sorted_runs(Vec::<f64>::new(), &[0], |&v: &f64| total_order_key(v)).is_empty());
+    }
 
     #[test]
     fn one_moment_pass_gives_both_shapes_exactly() {

@@ -142,42 +142,43 @@ struct SortedCells {
 
 /// Sorts (key, position) pairs by key, keeping input order among equal keys: a
 /// least-significant-digit radix sort on 11-bit digits (stable), which skips a digit
-/// that every key shares. Small inputs use the comparison sort on (key, position),
-/// which gives the same order.
-fn radix_sort(mut a: Vec<(u64, usize)>) -> Vec<(u64, usize)> {
+/// that every key shares. The counts of every digit come from one pass over the keys;
+/// `scratch` is working space (kept by the caller for the next sort). Small inputs use
+/// the comparison sort on (key, position), which gives the same order.
+fn radix_sort(a: &mut Vec<(u64, usize)>, scratch: &mut Vec<(u64, usize)>) {
     const BITS: u32 = 11;
     const BUCKETS: usize = 1 << BITS;
+    const DIGITS: usize = 64usize.div_ceil(BITS as usize);
     if a.len() <= 256 {
         a.sort_unstable();
-        return a;
+        return;
     }
-    let mut b = vec![(0u64, 0usize); a.len()];
-    let mut counts = vec![0usize; BUCKETS];
-    let mut shift = 0u32;
-    while shift < 64 {
-        counts.iter_mut().for_each(|c| *c = 0);
-        for &(k, _) in &a {
-            counts[((k >> shift) as usize) & (BUCKETS - 1)] += 1;
+    let mut counts = vec![[0usize; BUCKETS]; DIGITS];
+    for &(k, _) in a.iter() {
+        for (d, c) in counts.iter_mut().enumerate() {
+            c[((k >> (d as u32 * BITS)) as usize) & (BUCKETS - 1)] += 1;
         }
-        if counts.contains(&a.len()) {
-            shift += BITS;
+    }
+    scratch.clear();
+    scratch.resize(a.len(), (0, 0));
+    for (d, c) in counts.iter_mut().enumerate() {
+        if c.contains(&a.len()) {
             continue;
         }
+        let shift = d as u32 * BITS;
         let mut total = 0;
-        for c in counts.iter_mut() {
-            let here = *c;
-            *c = total;
+        for slot in c.iter_mut() {
+            let here = *slot;
+            *slot = total;
             total += here;
         }
-        for &(k, i) in &a {
-            let d = ((k >> shift) as usize) & (BUCKETS - 1);
-            b[counts[d]] = (k, i);
-            counts[d] += 1;
+        for &(k, i) in a.iter() {
+            let digit = ((k >> shift) as usize) & (BUCKETS - 1);
+            scratch[c[digit]] = (k, i);
+            c[digit] += 1;
         }
-        std::mem::swap(&mut a, &mut b);
-        shift += BITS;
+        std::mem::swap(a, scratch);
     }
-    a
 }
 
 impl Design {
@@ -403,6 +404,19 @@ impl Design {
         &self.y
     }
 
+    /// A slice in canonical observation order (`v.len()` = N) cut at the cell
+    /// boundaries: one mutable piece per cell, so that cells can be filled in parallel.
+    pub fn split_cells_mut<'a, T>(&self, v: &'a mut [T]) -> Vec<&'a mut [T]> {
+        let mut parts = Vec::with_capacity(self.n_cells());
+        let mut rest = v;
+        for c in 0..self.n_cells() {
+            let (part, tail) = rest.split_at_mut(self.cell_range(c).len());
+            parts.push(part);
+            rest = tail;
+        }
+        parts
+    }
+
     /// Centred outcome values of cell `c`.
     pub fn cell_values(&self, c: usize) -> &[f64] {
         &self.y[self.cell_range(c)]
@@ -488,45 +502,50 @@ impl Design {
     fn sorted_cells(&self) -> &SortedCells {
         self.sorted.get_or_init(|| {
             let n_cells = self.n_cells();
-            let sort_cell = |c: usize| {
-                let keyed: Vec<(u64, usize)> = self
-                    .cell_values(c)
-                    .iter()
-                    .enumerate()
-                    .map(|(i, &v)| (crate::summary::total_order_key(v), i))
-                    .collect();
-                radix_sort(keyed)
+            // Each cell is sorted into its own range of the two outputs; cells are
+            // handed out to the threads one at a time.
+            let mut values = vec![0.0; self.y.len()];
+            let mut order = vec![0usize; self.y.len()];
+            // Each thread keeps its two working buffers from one cell to the next.
+            type Buffers = (Vec<(u64, usize)>, Vec<(u64, usize)>);
+            let sort_cell = |c: usize, values: &mut [f64], order: &mut [usize], (keyed, scratch): &mut Buffers| {
+                let cell = self.cell_values(c);
+                keyed.clear();
+                keyed.extend(cell.iter().enumerate().map(|(i, &v)| (crate::summary::total_order_key(v), i)));
+                radix_sort(keyed, scratch);
+                for ((value, position), &(_, i)) in values.iter_mut().zip(order.iter_mut()).zip(keyed.iter()) {
+                    *value = cell[i];
+                    *position = i;
+                }
             };
+            let parts: Vec<(&mut [f64], &mut [usize])> =
+                self.split_cells_mut(&mut values).into_iter().zip(self.split_cells_mut(&mut order)).collect();
             let threads = rayon::current_num_threads().clamp(1, n_cells.max(1));
-            let mut per_cell: Vec<Vec<(u64, usize)>> = vec![Vec::new(); n_cells];
             if threads == 1 || self.y.len() < 65_536 {
-                for (c, slot) in per_cell.iter_mut().enumerate() {
-                    *slot = sort_cell(c);
+                let mut buffers = Buffers::default();
+                for (c, (v, o)) in parts.into_iter().enumerate() {
+                    sort_cell(c, v, o, &mut buffers);
                 }
             } else {
+                let parts: Vec<std::sync::Mutex<(&mut [f64], &mut [usize])>> =
+                    parts.into_iter().map(std::sync::Mutex::new).collect();
+                let next = std::sync::atomic::AtomicUsize::new(0);
                 std::thread::scope(|scope| {
-                    let handles: Vec<_> = (0..threads)
-                        .map(|t| {
-                            let sort_cell = &sort_cell;
-                            scope.spawn(move || {
-                                (t..n_cells).step_by(threads).map(|c| (c, sort_cell(c))).collect::<Vec<_>>()
-                            })
-                        })
-                        .collect();
-                    for h in handles {
-                        // A panic in a sorting thread is a bug; re-raise it here.
-                        for (c, sorted) in h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)) {
-                            per_cell[c] = sorted;
-                        }
+                    for _ in 0..threads {
+                        scope.spawn(|| {
+                            let mut buffers = Buffers::default();
+                            loop {
+                                let c = next.fetch_add(1, std::sync::atomic::Ordering::Relaxed);
+                                let Some(part) = parts.get(c) else { break };
+                                // Each cell is claimed by one thread, so the lock is never
+                                // contended (and never poisoned: a panic here ends the scope).
+                                let mut guard = part.lock().unwrap_or_else(std::sync::PoisonError::into_inner);
+                                let (v, o) = &mut *guard;
+                                sort_cell(c, v, o, &mut buffers);
+                            }
+                        });
                     }
                 });
-            }
-            let mut values = Vec::with_capacity(self.y.len());
-            let mut order = Vec::with_capacity(self.y.len());
-            for (c, keyed) in per_cell.iter().enumerate() {
-                let cell = self.cell_values(c);
-                values.extend(keyed.iter().map(|&(_, i)| cell[i]));
-                order.extend(keyed.iter().map(|&(_, i)| i));
             }
             SortedCells { values, order }
         })
@@ -687,7 +706,15 @@ mod tests {
             values.iter().enumerate().map(|(i, &v)| (crate::summary::total_order_key(v), i)).collect();
         let mut expected = keyed.clone();
         expected.sort_unstable();
-        assert_eq!(radix_sort(keyed), expected);
+        let (mut sorted, mut scratch) = (keyed.clone(), Vec::new());
+        radix_sort(&mut sorted, &mut scratch);
+        assert_eq!(sorted, expected);
+        // The working buffers may come from an earlier, longer sort.
+        let mut again = keyed[..3000].to_vec();
+        radix_sort(&mut again, &mut scratch);
+        let mut want = keyed[..3000].to_vec();
+        want.sort_unstable();
+        assert_eq!(again, want);
         let mut by_value: Vec<usize> = (0..values.len()).collect();
         by_value.sort_by(|&a, &b| values[a].total_cmp(&values[b]).then(a.cmp(&b)));
         assert_eq!(expected.iter().map(|p| p.1).collect::<Vec<_>>(), by_value);

@@ -28,7 +28,6 @@ use calibration::{DatasetStats, NullMethod, NullReference, FLAG_LEVEL};
 use flags::{lines_phrase, null_p_phrase, Code};
 use homogeneity::{Centre, HomogeneityProblem};
 use outliers::Rule;
-use rayon::slice::ParallelSliceMut;
 
 /// Cell sizes above this ratio count as unequal for the variance–size pairing flag
 /// (METHODS §11.2 rule 3; Blanca et al. 2018 report the F test's robustness breaking
@@ -526,15 +525,25 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
 }
 
 /// Shape of the pooled residuals y − ȳ_c: moments in canonical order, Shapiro–Wilk on
-/// the residuals sorted (built from each cell's sorted values less its mean, so the
-/// parallel sort meets long sorted runs).
+/// the residuals sorted. Each cell's sorted values less its mean are an ascending run
+/// (subtraction rounds monotonically), so sorting the residuals is merging the runs.
 fn residual_shape(design: &Design, fit: &Fit, sorted_cells: &[&[f64]]) -> normality::Shape {
-    let n_cells = design.n_cells();
-    let residuals: Vec<f64> =
-        (0..n_cells).flat_map(|c| design.cell_values(c).iter().map(move |&v| v - fit.mean[c])).collect();
-    let mut sorted: Vec<f64> =
-        (0..n_cells).flat_map(|c| sorted_cells[c].iter().map(move |&v| v - fit.mean[c])).collect();
-    sorted.par_sort_by(f64::total_cmp);
+    use rayon::prelude::*;
+    let n = design.n_obs();
+    let (mut residuals, mut runs) = (vec![0.0; n], vec![0.0; n]);
+    design.split_cells_mut(&mut residuals).into_par_iter().zip(design.split_cells_mut(&mut runs)).enumerate().for_each(
+        |(c, (residuals, run))| {
+            let m = fit.mean[c];
+            for (r, &v) in residuals.iter_mut().zip(design.cell_values(c)) {
+                *r = v - m;
+            }
+            for (r, &v) in run.iter_mut().zip(sorted_cells[c]) {
+                *r = v - m;
+            }
+        },
+    );
+    let bounds: Vec<usize> = (0..design.n_cells()).map(|c| design.cell_range(c).start).chain([n]).collect();
+    let sorted = crate::summary::merge_sorted_runs(runs, &bounds, |&v| crate::summary::total_order_key(v));
     normality::shape_given_sorted(&residuals, &sorted)
 }
 
@@ -608,8 +617,15 @@ fn discreteness(sorted_cells: &[&[f64]]) -> Option<Flag> {
         out
     };
     let per_cell: Vec<Vec<(f64, usize)>> = sorted_cells.par_iter().map(|s| compress(s)).collect();
-    let mut all: Vec<(f64, usize)> = per_cell.concat();
-    all.par_sort_by(|a, b| a.0.total_cmp(&b.0));
+    let bounds: Vec<usize> = std::iter::once(0)
+        .chain(per_cell.iter().scan(0, |end, run| {
+            *end += run.len();
+            Some(*end)
+        }))
+        .collect();
+    let all = crate::summary::merge_sorted_runs(per_cell.concat(), &bounds, |e: &(f64, usize)| {
+        crate::summary::total_order_key(e.0)
+    });
     let n: usize = sorted_cells.iter().map(|s| s.len()).sum();
     let (mut distinct, mut tied) = (0usize, 0usize);
     let mut i = 0;

@@ -318,7 +318,6 @@ pub fn residual_plots(design: &Design, fit: &Fit) -> (Vec<CellPlot>, Option<QqPl
     let mse = fit.mse();
     let mut cell_plots = Vec::with_capacity(design.n_cells());
     let mut runs: Vec<QqRun> = Vec::with_capacity(design.n_cells());
-    let (mut excluded, mut qq_total) = (0, 0);
     for c in 0..design.n_cells() {
         let v = design.cell_values(c);
         let start = design.cell_range(c).start;
@@ -337,22 +336,11 @@ pub fn residual_plots(design: &Design, fit: &Fit) -> (Vec<CellPlot>, Option<QqPl
         let kind_of = |x: f64| fences.kind(x);
         let standardized = |x: f64| finite((x - m) / scale);
         let order = design.sorted_positions(c);
-        let cell_lines = &lines[start..start + n];
-        let finite_count = v.iter().filter(|&&x| standardized(x).is_some()).count();
-        excluded += n - finite_count;
-        qq_total += finite_count;
-        runs.push(QqRun {
-            sorted: s,
-            order,
-            lines: cell_lines,
-            mean: m,
-            scale,
-            fences,
-            next: 0,
-            plain_left: 0,
-            group: Vec::new(),
-        });
-        let points: Vec<PlotPoint> = strip_positions(v, order, &kind_of)
+        // The finite standardized residuals of a sorted cell are a contiguous range.
+        let lo = s.iter().position(|&x| standardized(x).is_some()).unwrap_or(n);
+        let hi = n - s.iter().rev().position(|&x| standardized(x).is_some()).unwrap_or(0).min(n - lo);
+        runs.push(QqRun { sorted: s, order, lines: &lines[start..start + n], mean: m, scale, fences, lo, hi });
+        let points: Vec<PlotPoint> = strip_positions(s, order, &fences)
             .into_iter()
             .map(|i| PlotPoint {
                 value: loc + v[i],
@@ -375,7 +363,7 @@ pub fn residual_plots(design: &Design, fit: &Fit) -> (Vec<CellPlot>, Option<QqPl
             points,
         });
     }
-    (cell_plots, qq_plot(runs, qq_total, excluded))
+    (cell_plots, qq_plot(&runs))
 }
 
 /// [`compute`] from the parts of [`residual_plots`].
@@ -400,18 +388,21 @@ pub fn assemble(
 
 /// Positions (input order) of the strip-plot points of a cell: every point beyond the
 /// inner fences, and at most [`STRIP_POINTS_MAX`] of the rest at evenly spaced ranks of
-/// value (`order`: positions in ascending order of value, ties in input order).
-fn strip_positions(v: &[f64], order: &[usize], kind_of: &dyn Fn(f64) -> PointKind) -> Vec<usize> {
-    let inside = v.iter().filter(|&&x| kind_of(x) == PointKind::Inside).count();
-    if inside <= STRIP_POINTS_MAX {
-        return (0..v.len()).collect();
+/// value (`sorted`: the cell's values ascending; `order`: their positions in the cell,
+/// ties in input order). The points inside the fences are a contiguous range of the
+/// sorted values, found by bisection.
+fn strip_positions(sorted: &[f64], order: &[usize], fences: &Fences) -> Vec<usize> {
+    let a = sorted.partition_point(|&x| x < fences.in_lo);
+    // As `Fences::kind`: a NaN fence leaves every point inside.
+    let b = a + sorted[a..].partition_point(|&x| x <= fences.in_hi || fences.in_hi.is_nan());
+    if b - a <= STRIP_POINTS_MAX {
+        return (0..sorted.len()).collect();
     }
-    let by_value: Vec<usize> = order.iter().copied().filter(|&i| kind_of(v[i]) == PointKind::Inside).collect();
-    let mut keep = vec![false; v.len()];
-    for k in even_ranks(by_value.len(), STRIP_POINTS_MAX) {
-        keep[by_value[k]] = true;
-    }
-    (0..v.len()).filter(|&i| keep[i] || kind_of(v[i]) != PointKind::Inside).collect()
+    let mut kept: Vec<usize> = order[..a].iter().chain(&order[b..]).copied().collect();
+    kept.extend(even_ranks(b - a, STRIP_POINTS_MAX).map(|k| order[a + k]));
+    kept.sort_unstable();
+    kept.dedup();
+    kept
 }
 
 /// `m` ranks in 0..n, evenly spaced and including both ends (m ≥ 2, m ≤ n).
@@ -440,12 +431,9 @@ impl Fences {
     }
 }
 
-/// One cell's finite standardized residuals, produced in ascending order of (value,
-/// line) as (residual, index into the sorted cell). The cell's values are walked in
-/// sorted order, where the residuals never decrease and equal values come in line
-/// order; only a span of equal residuals from different values (a rounding coincidence)
-/// is put in line order explicitly. Lines are looked up only to break ties and for the
-/// kept points.
+/// One cell's standardized residuals (x − ȳ_c)/√(MSE·(1 − 1/n_c)) on its sorted
+/// values: finite at sorted positions `lo..hi` (a contiguous range, as the values are
+/// sorted), non-decreasing there.
 struct QqRun<'a> {
     /// The cell's values in ascending order, and their positions in the cell.
     sorted: &'a [f64],
@@ -455,71 +443,53 @@ struct QqRun<'a> {
     mean: f64,
     scale: f64,
     fences: Fences,
-    /// Next index into `sorted`.
-    next: usize,
-    /// Entries left of the current span that are already in order.
-    plain_left: usize,
-    /// The rest of the current reordered span, last first.
-    group: Vec<(f64, usize)>,
+    lo: usize,
+    hi: usize,
 }
 
 impl QqRun<'_> {
-    fn residual(&self, k: usize) -> Option<f64> {
-        self.sorted.get(k).and_then(|&x| finite((x - self.mean) / self.scale))
+    fn value(&self, k: usize) -> f64 {
+        (self.sorted[k] - self.mean) / self.scale
     }
 
     fn line(&self, k: usize) -> u64 {
         self.lines[self.order[k]]
     }
-
-    fn pop(&mut self) -> Option<(f64, usize)> {
-        if let Some(e) = self.group.pop() {
-            return Some(e);
-        }
-        if self.plain_left > 0 {
-            self.plain_left -= 1;
-            let k = self.next;
-            self.next += 1;
-            return self.residual(k).map(|r| (r, k));
-        }
-        // A new span: the first finite residual and every following equal one.
-        let (start, r0) = loop {
-            if self.next >= self.sorted.len() {
-                return None;
-            }
-            let k = self.next;
-            self.next += 1;
-            if let Some(r) = self.residual(k) {
-                break (k, r);
-            }
-        };
-        let x0 = self.sorted[start];
-        let mut end = start + 1;
-        let mut mixed = false;
-        while self.residual(end).is_some_and(|r| r == r0) {
-            // Bitwise: −0 and +0 are different values whose residuals may coincide.
-            mixed |= self.sorted[end].to_bits() != x0.to_bits();
-            end += 1;
-        }
-        if !mixed {
-            self.plain_left = end - start - 1;
-            return Some((r0, start));
-        }
-        let mut group: Vec<(f64, usize)> = (start..end).map(|k| (self.residual(k).unwrap_or(r0), k)).collect();
-        group.sort_by(|a, b| b.0.total_cmp(&a.0).then(self.line(b.1).cmp(&self.line(a.1))));
-        self.next = end;
-        self.group = group;
-        self.group.pop()
-    }
 }
 
-/// The Q-Q plot of the pooled standardized residuals (`n` finite ones in `runs`): the
-/// cells' runs are merged in ascending order of (value, line) — lines are unique, so the
-/// order is the same as sorting every point — and only the plotted ranks are kept.
-fn qq_plot(mut runs: Vec<QqRun>, n: usize, excluded: usize) -> Option<QqPlot> {
+/// Every finite standardized residual as one sort key: the top bits of its
+/// [`summary::total_order_key`] with the cell number in the low `tag_bits` bits, in
+/// ascending order. Truncating the key keeps the order of unequal truncated keys, so
+/// points whose truncated keys differ are in value order, and points with one
+/// truncated key are neighbours ([`qq_plot`] puts each such span in exact order). Each
+/// cell's keys ascend already, so ordering them is merging the cells' runs.
+fn qq_keys(runs: &[QqRun], tag_bits: u32) -> Vec<u64> {
+    let mut keys: Vec<u64> = Vec::with_capacity(runs.iter().map(|r| r.hi - r.lo).sum());
+    let mut bounds = vec![0];
+    for (c, r) in runs.iter().enumerate() {
+        keys.extend((r.lo..r.hi).map(|k| (summary::total_order_key(r.value(k)) >> tag_bits << tag_bits) | c as u64));
+        bounds.push(keys.len());
+    }
+    summary::merge_sorted_runs(keys, &bounds, |&k| k)
+}
+
+/// The Q-Q plot of the pooled standardized residuals, in ascending order of (value,
+/// line) — the order of sorting every point — keeping only the plotted ranks.
+///
+/// [`qq_keys`] orders the points up to spans of equal truncated keys. A cell's k-th
+/// point in that sequence is its k-th finite residual, so a position's point is found
+/// by counting; a span (equal or nearly equal values, possibly from several cells) is
+/// put in exact (value, line) order only where a plotted rank falls in it.
+fn qq_plot(runs: &[QqRun]) -> Option<QqPlot> {
+    let total: usize = runs.iter().map(|r| r.sorted.len()).sum();
+    let tag_bits = usize::BITS - runs.len().saturating_sub(1).leading_zeros();
+    let keys = qq_keys(runs, tag_bits);
+    let n = keys.len();
     if n < 2 {
         return None;
     }
+    let cell_of = |i: usize| (keys[i] & ((1u64 << tag_bits) - 1)) as usize;
+    let span_of = |i: usize| keys[i] >> tag_bits;
     let position = |i: usize| dist::normal_quantile((i as f64 + 1.0 - 0.375) / (n as f64 + 0.25));
     let ranks: Vec<usize> = if n <= QQ_POINTS_MAX {
         (0..n).collect()
@@ -532,42 +502,65 @@ fn qq_plot(mut runs: Vec<QqRun>, n: usize, excluded: usize) -> Option<QqPlot> {
         r.dedup();
         r
     };
-    let mut heads: Vec<Option<(f64, usize)>> = runs.iter_mut().map(QqRun::pop).collect();
-    // The heads' residuals as integer keys (a cell with nothing left: u64::MAX, above
-    // every real one); the smallest wins, ties go to the smaller line.
-    let key = |h: &Option<(f64, usize)>| h.map_or(u64::MAX, |e| crate::summary::total_order_key(e.0));
-    let mut keys: Vec<u64> = heads.iter().map(key).collect();
+    // next[c]: sorted position in cell c of the point at sequence position `at`.
+    let mut next: Vec<usize> = runs.iter().map(|r| r.lo).collect();
+    let mut at = 0;
+    // Scratch for walking out from `at`: how many of each cell were stepped over.
+    let mut stepped: Vec<usize> = vec![0; runs.len()];
+    let mut touched: Vec<usize> = Vec::new();
+    // The current span: its first position and its points as (value key, line, cell,
+    // sorted position) in exact order.
+    let mut span_start = 0;
+    let mut span: Vec<(u64, u64, usize, usize)> = Vec::new();
     let mut points = Vec::with_capacity(ranks.len());
-    let mut wanted = ranks.iter().peekable();
-    for rank in 0..n {
-        let mut best = 0;
-        for k in 1..keys.len() {
-            if keys[k] < keys[best]
-                || (keys[k] == keys[best]
-                    && keys[k] != u64::MAX
-                    && heads[k].zip(heads[best]).is_some_and(|(a, b)| runs[k].line(a.1) < runs[best].line(b.1)))
-            {
-                best = k;
+    for &rank in &ranks {
+        if rank >= span_start + span.len() {
+            while at < rank {
+                next[cell_of(at)] += 1;
+                at += 1;
             }
-        }
-        let Some((r, i)) = heads[best] else { break };
-        if wanted.peek() == Some(&&rank) {
-            wanted.next();
-            let run = &runs[best];
-            points.push(QqPoint {
-                theoretical: position(rank),
-                standardized: r,
-                line: run.line(i),
-                kind: run.fences.kind(run.sorted[i]),
-            });
-            if wanted.peek().is_none() {
-                break;
+            let point = |c: usize, k: usize| {
+                let run = &runs[c];
+                (summary::total_order_key(run.value(k)), run.line(k), c, k)
+            };
+            let here = span_of(at);
+            span.clear();
+            // Back from `at` while the truncated keys are equal, then forward from it.
+            let mut start = at;
+            while start > 0 && span_of(start - 1) == here {
+                let c = cell_of(start - 1);
+                stepped[c] += 1;
+                touched.push(c);
+                span.push(point(c, next[c] - stepped[c]));
+                start -= 1;
             }
+            for c in touched.drain(..) {
+                stepped[c] = 0;
+            }
+            let mut end = at;
+            while end < n && span_of(end) == here {
+                let c = cell_of(end);
+                span.push(point(c, next[c] + stepped[c]));
+                stepped[c] += 1;
+                touched.push(c);
+                end += 1;
+            }
+            for c in touched.drain(..) {
+                stepped[c] = 0;
+            }
+            span.sort_unstable_by_key(|p| (p.0, p.1));
+            span_start = start;
         }
-        heads[best] = runs[best].pop();
-        keys[best] = key(&heads[best]);
+        let (_, line, c, k) = span[rank - span_start];
+        let run = &runs[c];
+        points.push(QqPoint {
+            theoretical: position(rank),
+            standardized: run.value(k),
+            line,
+            kind: run.fences.kind(run.sorted[k]),
+        });
     }
-    Some(QqPlot { points, n, excluded })
+    Some(QqPlot { points, n, excluded: total - n })
 }
 
 fn interaction(design: &Design, fit: &Fit, cells: &[CellSummary], axes: InteractionAxes, ci_level: f64) -> Interaction {
@@ -784,11 +777,49 @@ mod tests {
     use super::*;
     use crate::design::Factor;
 
-    /// The merged Q-Q plot against sorting every (residual, line) pair, on rows whose
-    /// cells interleave in the file and whose values tie heavily within and across cells.
+    /// The Q-Q plot of `design` against sorting every (standardized residual, line) pair.
+    fn assert_qq_equals_sorting_every_point(design: &Design, what: &str) {
+        let fit = Fit::new(design);
+        let (_, qq) = residual_plots(design, &fit);
+        let qq = qq.unwrap();
+        let mse = fit.mse();
+        let mut all: Vec<(f64, u64)> = Vec::new();
+        for c in 0..design.n_cells() {
+            let n = design.cell_values(c).len() as f64;
+            let scale = (mse * (1.0 - 1.0 / n)).sqrt();
+            let start = design.cell_range(c).start;
+            for (i, &v) in design.cell_values(c).iter().enumerate() {
+                let z = (v - fit.mean[c]) / scale;
+                if z.is_finite() {
+                    all.push((z, design.lines()[start + i]));
+                }
+            }
+        }
+        all.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
+        assert_eq!(qq.n, all.len(), "{what}");
+        assert_eq!(qq.excluded, design.n_obs() - all.len(), "{what}");
+        let ranks: Vec<usize> = if all.len() <= QQ_POINTS_MAX {
+            (0..all.len()).collect()
+        } else {
+            let inner = all.len() - 2 * QQ_TAIL_KEEP;
+            let mut r: Vec<usize> = (0..QQ_TAIL_KEEP).collect();
+            r.extend(even_ranks(inner, QQ_POINTS_MAX - 2 * QQ_TAIL_KEEP).map(|k| QQ_TAIL_KEEP + k));
+            r.extend(all.len() - QQ_TAIL_KEEP..all.len());
+            r.dedup();
+            r
+        };
+        assert_eq!(qq.points.len(), ranks.len(), "{what}");
+        for (p, &k) in qq.points.iter().zip(&ranks) {
+            assert_eq!((p.standardized.to_bits(), p.line), (all[k].0.to_bits(), all[k].1), "{what}, rank {k}");
+        }
+    }
+
+    /// The merged Q-Q plot against sorting every point, on rows whose cells interleave
+    /// in the file and whose values tie heavily within and across cells (equal and
+    /// unequal cell sizes).
     #[test]
     fn merged_qq_plot_equals_sorting_every_point() {
-        for rows in [900usize, 4000] {
+        for rows in [900usize, 4000, 30_001] {
             let mut csv = String::from("a,b,y\n");
             let mut x: u64 = 0x9E37_79B9_7F4A_7C15 ^ rows as u64;
             for i in 0..rows {
@@ -802,37 +833,33 @@ mod tests {
             let loc = crate::error::Location::file("t.csv");
             let obs = crate::data::parse(csv.as_bytes(), &spec, "t.csv", &loc).unwrap();
             let design = Design::build(&obs, &spec).unwrap();
-            let fit = Fit::new(&design);
-            let (_, qq) = residual_plots(&design, &fit);
-            let qq = qq.unwrap();
-            // Every point, sorted by (residual, line).
-            let mse = fit.mse();
-            let mut all: Vec<(f64, u64)> = Vec::new();
-            for c in 0..design.n_cells() {
-                let n = design.cell_values(c).len() as f64;
-                let scale = (mse * (1.0 - 1.0 / n)).sqrt();
-                let start = design.cell_range(c).start;
-                for (i, &v) in design.cell_values(c).iter().enumerate() {
-                    all.push(((v - fit.mean[c]) / scale, design.lines()[start + i]));
-                }
-            }
-            all.sort_by(|a, b| a.0.total_cmp(&b.0).then(a.1.cmp(&b.1)));
-            assert_eq!(qq.n, all.len());
-            let ranks: Vec<usize> = if all.len() <= QQ_POINTS_MAX {
-                (0..all.len()).collect()
-            } else {
-                let inner = all.len() - 2 * QQ_TAIL_KEEP;
-                let mut r: Vec<usize> = (0..QQ_TAIL_KEEP).collect();
-                r.extend(even_ranks(inner, QQ_POINTS_MAX - 2 * QQ_TAIL_KEEP).map(|k| QQ_TAIL_KEEP + k));
-                r.extend(all.len() - QQ_TAIL_KEEP..all.len());
-                r.dedup();
-                r
-            };
-            assert_eq!(qq.points.len(), ranks.len());
-            for (p, &k) in qq.points.iter().zip(&ranks) {
-                assert_eq!((p.standardized.to_bits(), p.line), (all[k].0.to_bits(), all[k].1), "rows {rows}, rank {k}");
-            }
+            assert_qq_equals_sorting_every_point(&design, &format!("{rows} rows"));
         }
+    }
+
+    /// Values a few units in the last place apart (their truncated keys coincide, so
+    /// the exact order is restored within spans), a cell of one observation (no
+    /// standardized residual), and values of extreme magnitude.
+    #[test]
+    fn qq_plot_orders_near_ties_and_skips_non_finite_residuals() {
+        let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+        let mut near = |n: usize, base: f64| -> Vec<f64> {
+            (0..n)
+                .map(|_| {
+                    x ^= x << 13;
+                    x ^= x >> 7;
+                    x ^= x << 17;
+                    let ulps = (x % 7) as i64 - 3;
+                    f64::from_bits((base.to_bits() as i64 + ulps) as u64) + [0.0, 1.0, -1.0][(x >> 20) as usize % 3]
+                })
+                .collect()
+        };
+        let cells = vec![near(1500, 10.0), near(1, 10.0), near(1700, 10.0), near(900, 10.0)];
+        let design = Design::from_cells("y", vec![factor("A", &["a", "b"]), factor("B", &["c", "d"])], &cells).unwrap();
+        assert_qq_equals_sorting_every_point(&design, "near ties");
+        let cells = vec![vec![0.0, 1.0, 2.0, 1e308], vec![-1e308, 0.5, 1.5, 1.0], vec![1.0, 2.0], vec![3.0, 4.0]];
+        let design = Design::from_cells("y", vec![factor("A", &["a", "b"]), factor("B", &["c", "d"])], &cells).unwrap();
+        assert_qq_equals_sorting_every_point(&design, "extreme magnitudes");
     }
 
     fn factor(name: &str, levels: &[&str]) -> Factor {

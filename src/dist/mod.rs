@@ -50,5 +50,5 @@ pub use central::{chi2_cdf, chi2_quantile, chi2_sf, f_cdf, f_quantile, f_sf, t_c
 pub use gamma::{gamma_p, gamma_q, ln_gamma};
 pub use noncentral::{ncf_cdf, ncf_lambda_interval, ncf_sf};
 pub use noncentral_t::{nct_cdf, nct_delta_interval};
-pub use normal::{normal_cdf, normal_pdf, normal_quantile, normal_sf};
+pub use normal::{normal_cdf, normal_pdf, normal_quantile, normal_quantile_ppnd16, normal_sf};
 pub use tukey::{ptukey_cdf, ptukey_quantile, ptukey_sf};

@@ -193,9 +193,44 @@ pub fn normal_quantile(p: f64) -> f64 {
     }
 }
 
+/// Φ⁻¹(p) by PPND16 alone, without [`normal_quantile`]'s Halley step in the tails:
+/// within 2e−15 (relative) of it for 1e−12 ≤ p ≤ 1 − 1e−12 and several times faster
+/// there, for bulk use such as the Shapiro–Wilk coefficients of a large sample. Same
+/// conventions as [`normal_quantile`] at 0, 1 and outside [0, 1].
+pub fn normal_quantile_ppnd16(p: f64) -> f64 {
+    if !(0.0..=1.0).contains(&p) {
+        return f64::NAN;
+    }
+    if p == 0.0 {
+        return f64::NEG_INFINITY;
+    }
+    if p == 1.0 {
+        return f64::INFINITY;
+    }
+    ppnd16(p)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn ppnd16_alone_is_close_to_the_refined_quantile() {
+        let mut worst: f64 = 0.0;
+        for i in 0..=20_000 {
+            // p from 1e−12 to ½ on a log scale, and its mirror.
+            let p = 10f64.powf(-12.0 + 12.0 * i as f64 / 20_000.0) * 0.5;
+            for q in [p, 1.0 - p] {
+                let (a, b) = (normal_quantile_ppnd16(q), normal_quantile(q));
+                if b != 0.0 {
+                    worst = worst.max(((a - b) / b).abs());
+                }
+            }
+        }
+        assert!(worst <= 2e-15, "worst relative difference {worst:e}");
+        assert_eq!(normal_quantile_ppnd16(0.0), f64::NEG_INFINITY);
+        assert!(normal_quantile_ppnd16(-0.1).is_nan());
+    }
 
     #[test]
     fn symmetry_and_centre() {

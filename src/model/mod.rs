@@ -40,19 +40,32 @@ impl Fit {
         let y = design.y();
         let n_total = y.len();
         let n = design.cell_sizes();
-        let grand_mean = mean_two_pass(y);
-        let mut mean = Vec::with_capacity(n.len());
-        let mut ss_within = Vec::with_capacity(n.len());
-        let mut centred_sums = Vec::with_capacity(n.len());
-        for c in 0..n.len() {
+        // Each sum runs in its own fixed order, so spreading cells over threads (for a
+        // large design) changes no digit.
+        let cell = |c: usize| {
             let v = design.cell_values(c);
             let m = mean_two_pass(v);
-            mean.push(m);
-            ss_within.push(v.iter().map(|x| (x - m) * (x - m)).sum());
-            centred_sums.push(v.iter().map(|x| x - grand_mean).sum());
-        }
+            (m, v.iter().map(|x| (x - m) * (x - m)).sum::<f64>())
+        };
+        let whole = || {
+            let g = mean_two_pass(y);
+            (g, y.iter().map(|x| (x - g) * (x - g)).sum::<f64>())
+        };
+        let ((grand_mean, sst), per_cell): ((f64, f64), Vec<(f64, f64)>) = if n_total >= PARALLEL_FIT {
+            use rayon::prelude::*;
+            rayon::join(whole, || (0..n.len()).into_par_iter().map(cell).collect())
+        } else {
+            (whole(), (0..n.len()).map(cell).collect())
+        };
+        let (mean, ss_within): (Vec<f64>, Vec<f64>) = per_cell.into_iter().unzip();
+        let centred_sum = |c: usize| design.cell_values(c).iter().map(|x| x - grand_mean).sum::<f64>();
+        let centred_sums: Vec<f64> = if n_total >= PARALLEL_FIT {
+            use rayon::prelude::*;
+            (0..n.len()).into_par_iter().map(centred_sum).collect()
+        } else {
+            (0..n.len()).map(centred_sum).collect()
+        };
         let sse = ss_within.iter().sum();
-        let sst = y.iter().map(|x| (x - grand_mean) * (x - grand_mean)).sum();
         Fit { df_error: n_total - n.len(), n, mean, ss_within, grand_mean, centred_sums, sse, sst, n_total }
     }
 
@@ -66,6 +79,9 @@ impl Fit {
         (0..forms.n_terms()).map(|t| forms.ss(t, &self.centred_sums).max(0.0)).collect()
     }
 }
+
+/// Observations from which [`Fit::new`] spreads its sums over the rayon pool.
+const PARALLEL_FIT: usize = 1 << 16;
 
 /// Mean with a correction pass (accurate for data with a large common offset).
 pub fn mean_two_pass(v: &[f64]) -> f64 {
@@ -116,4 +132,46 @@ pub fn effect_sizes(ss: &[f64], df: &[usize], measured: &[bool], fit: &Fit) -> V
             }
         })
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::design::Factor;
+
+    #[test]
+    fn a_large_fit_is_the_same_on_any_thread_count() {
+        // Above PARALLEL_FIT, with a large common offset and unequal cells.
+        let mut x: u64 = 0x2545_F491_4F6C_DD1D;
+        let cells: Vec<Vec<f64>> = [30_000usize, 2, 25_000, 21_000]
+            .iter()
+            .map(|&n| {
+                (0..n)
+                    .map(|_| {
+                        x ^= x << 13;
+                        x ^= x >> 7;
+                        x ^= x << 17;
+                        1e6 + (x % 10_000) as f64 / 7.0
+                    })
+                    .collect()
+            })
+            .collect();
+        let factor = |name: &str| Factor { name: name.into(), levels: vec!["1".into(), "2".into()], measured: false };
+        let design = Design::from_cells("y", vec![factor("a"), factor("b")], &cells).unwrap();
+        assert!(design.n_obs() >= PARALLEL_FIT);
+        let bits = |threads: usize| {
+            let pool = rayon::ThreadPoolBuilder::new().num_threads(threads).build().unwrap();
+            let f = pool.install(|| Fit::new(&design));
+            let mut v = vec![f.grand_mean, f.sse, f.sst];
+            v.extend(f.mean.iter().chain(&f.ss_within).chain(&f.centred_sums));
+            v.iter().map(|x| x.to_bits()).collect::<Vec<_>>()
+        };
+        assert_eq!(bits(1), bits(4));
+        // The sums are the plain sequential ones.
+        let f = Fit::new(&design);
+        let m0 = mean_two_pass(design.cell_values(0));
+        assert_eq!(f.mean[0].to_bits(), m0.to_bits());
+        let sst: f64 = design.y().iter().map(|v| (v - f.grand_mean) * (v - f.grand_mean)).sum();
+        assert_eq!(f.sst.to_bits(), sst.to_bits());
+    }
 }

@@ -255,8 +255,15 @@ pub fn variance(x: &[f64]) -> f64 {
 
 /// Central moments m2, m3, m4 with the 1/n divisor.
 fn central_moments(x: &[f64]) -> (f64, f64, f64) {
-    let n = x.len() as f64;
-    let m = crate::model::mean_two_pass(x);
+    central_moments_of(x.len(), x.iter().copied())
+}
+
+/// Central moments m2, m3, m4 of the `n` values `x` yields: the mean with a correction
+/// pass (as [`crate::model::mean_two_pass`]), then one pass of powers.
+fn central_moments_of<I: Iterator<Item = f64> + Clone>(n: usize, x: I) -> (f64, f64, f64) {
+    let n = n as f64;
+    let m0 = x.clone().sum::<f64>() / n;
+    let m = m0 + x.clone().map(|v| v - m0).sum::<f64>() / n;
     let (mut m2, mut m3, mut m4) = (0.0, 0.0, 0.0);
     for v in x {
         let d = v - m;
@@ -290,11 +297,17 @@ fn skewness_from(n: usize, (m2, m3, _): (f64, f64, f64)) -> Option<f64> {
 /// [`skewness`] and [`excess_kurtosis`] from one pass of central moments (the same
 /// numbers as the two calls).
 pub fn skewness_and_kurtosis(x: &[f64]) -> (Option<f64>, Option<f64>) {
-    if x.len() < 3 {
+    skewness_and_kurtosis_of(x.len(), x.iter().copied())
+}
+
+/// [`skewness_and_kurtosis`] of the `n` values `x` yields (walked three times), without
+/// collecting them: the same numbers as the slice of those values in that order.
+pub fn skewness_and_kurtosis_of<I: Iterator<Item = f64> + Clone>(n: usize, x: I) -> (Option<f64>, Option<f64>) {
+    if n < 3 {
         return (None, None);
     }
-    let moments = central_moments(x);
-    (skewness_from(x.len(), moments), kurtosis_from(x.len(), moments))
+    let moments = central_moments_of(n, x);
+    (skewness_from(n, moments), kurtosis_from(n, moments))
 }
 
 /// Bias-adjusted excess kurtosis G2 = [(n+1)g2 + 6](n−1)/((n−2)(n−3)), g2 = m4/m2² − 3
@@ -338,6 +351,22 @@ pub fn excess_kurtosis_se(n: usize) -> Option<f64> {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn moments_of_an_iterator_equal_those_of_the_collected_slice() {
+        let cells: Vec<Vec<f64>> = vec![vec![1e6 + 0.1, 1e6 + 0.7, 1e6 - 3.0], vec![], vec![2.5, -0.0, 9.25, 1e-3]];
+        let walk = || cells.iter().flat_map(|c| c.iter().map(|&v| v * 0.5 - 1.0));
+        let collected: Vec<f64> = walk().collect();
+        let (a, b) = (skewness_and_kurtosis(&collected), skewness_and_kurtosis_of(collected.len(), walk()));
+        assert_eq!(a.0.map(f64::to_bits), b.0.map(f64::to_bits));
+        assert_eq!(a.1.map(f64::to_bits), b.1.map(f64::to_bits));
+        assert!(a.0.is_some() && a.1.is_some());
+        // And the mean inside is the two-pass mean.
+        let m = crate::model::mean_two_pass(&collected);
+        let n = collected.len() as f64;
+        let m2: f64 = collected.iter().map(|v| (v - m) * (v - m)).sum::<f64>() / n;
+        assert_eq!(central_moments(&collected).0.to_bits(), m2.to_bits());
+    }
 
     #[test]
     fn merging_sorted_runs_equals_a_stable_sort_on_any_thread_count() {

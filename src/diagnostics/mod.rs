@@ -524,27 +524,25 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     Diagnosis { diagnostics, far, mad }
 }
 
-/// Shape of the pooled residuals y − ȳ_c: moments in canonical order, Shapiro–Wilk on
-/// the residuals sorted. Each cell's sorted values less its mean are an ascending run
-/// (subtraction rounds monotonically), so sorting the residuals is merging the runs.
+/// Shape of the pooled residuals y − ȳ_c: moments in canonical order (walked cell by
+/// cell, not collected), Shapiro–Wilk on the residuals sorted. Each cell's sorted values
+/// less its mean are an ascending run (subtraction rounds monotonically), so sorting
+/// the residuals is merging the runs.
 fn residual_shape(design: &Design, fit: &Fit, sorted_cells: &[&[f64]]) -> normality::Shape {
     use rayon::prelude::*;
     let n = design.n_obs();
-    let (mut residuals, mut runs) = (vec![0.0; n], vec![0.0; n]);
-    design.split_cells_mut(&mut residuals).into_par_iter().zip(design.split_cells_mut(&mut runs)).enumerate().for_each(
-        |(c, (residuals, run))| {
-            let m = fit.mean[c];
-            for (r, &v) in residuals.iter_mut().zip(design.cell_values(c)) {
-                *r = v - m;
-            }
-            for (r, &v) in run.iter_mut().zip(sorted_cells[c]) {
-                *r = v - m;
-            }
-        },
-    );
+    let mut runs = vec![0.0; n];
+    design.split_cells_mut(&mut runs).into_par_iter().enumerate().for_each(|(c, run)| {
+        let m = fit.mean[c];
+        for (r, &v) in run.iter_mut().zip(sorted_cells[c]) {
+            *r = v - m;
+        }
+    });
     let bounds: Vec<usize> = (0..design.n_cells()).map(|c| design.cell_range(c).start).chain([n]).collect();
     let sorted = crate::summary::merge_sorted_runs(runs, &bounds, |&v| crate::summary::total_order_key(v));
-    normality::shape_given_sorted(&residuals, &sorted)
+    let residuals = (0..design.n_cells()).flat_map(|c| design.cell_values(c).iter().map(move |&v| v - fit.mean[c]));
+    let moments = crate::summary::skewness_and_kurtosis_of(n, residuals);
+    normality::Shape::new(n, moments, normality::shapiro_wilk_sorted_owned(sorted))
 }
 
 /// A Shapiro–Wilk result for the results, or `None` if a number is not finite.

@@ -153,7 +153,25 @@ pub fn sw_problem_sorted(sorted: &[f64]) -> Option<SwProblem> {
 /// # Errors
 /// As [`shapiro_wilk`].
 pub fn shapiro_wilk_sorted(sorted: &[f64]) -> Result<SwTest, SwProblem> {
-    let s = prepare_sorted(sorted)?;
+    let how = Standardize::of(sorted)?;
+    let mut s = sorted.to_vec();
+    how.apply(&mut s);
+    sw_standardized(&s)
+}
+
+/// [`shapiro_wilk_sorted`] of values sorted ascending that the caller no longer needs:
+/// they are standardized in place instead of in a copy (the same numbers).
+///
+/// # Errors
+/// As [`shapiro_wilk`].
+pub fn shapiro_wilk_sorted_owned(mut sorted: Vec<f64>) -> Result<SwTest, SwProblem> {
+    let how = Standardize::of(&sorted)?;
+    how.apply(&mut sorted);
+    sw_standardized(&sorted)
+}
+
+/// W and its p-value from the sorted values standardized as [`Standardize`] says.
+fn sw_standardized(s: &[f64]) -> Result<SwTest, SwProblem> {
     let n = s.len();
     let a_half = shared_coefficients(n);
     // Full antisymmetric coefficient vector in ascending order of x.
@@ -235,25 +253,22 @@ impl Standardize {
         }
         Ok(Standardize { big, median, range })
     }
-}
 
-/// The sorted values standardized as [`Standardize`] says (simple passes over a copy,
-/// which the compiler vectorizes); the errors of [`shapiro_wilk`].
-fn prepare_sorted(sorted: &[f64]) -> Result<Vec<f64>, SwProblem> {
-    let Standardize { big, median, range } = Standardize::of(sorted)?;
-    let mut s = sorted.to_vec();
-    if let Some(big) = big {
-        for v in &mut s {
-            *v /= big;
+    /// Standardizes the sorted values in place (simple passes, which the compiler
+    /// vectorizes).
+    fn apply(self, s: &mut [f64]) {
+        if let Some(big) = self.big {
+            for v in s.iter_mut() {
+                *v /= big;
+            }
+        }
+        for v in s.iter_mut() {
+            *v -= self.median;
+        }
+        for v in s.iter_mut() {
+            *v /= self.range;
         }
     }
-    for v in &mut s {
-        *v -= median;
-    }
-    for v in &mut s {
-        *v /= range;
-    }
-    Ok(s)
 }
 
 /// Shape of a sample: bias-adjusted skewness and excess kurtosis with their standard
@@ -282,15 +297,21 @@ pub fn shape(x: &[f64]) -> Shape {
 /// The [`Shape`] of `x` given the same values sorted ascending (moments from `x` in
 /// its own order, Shapiro–Wilk from `sorted`).
 pub fn shape_given_sorted(x: &[f64], sorted: &[f64]) -> Shape {
-    let n = x.len();
-    let (g1, g2) = summary::skewness_and_kurtosis(x);
-    Shape {
-        n,
-        skewness: g1.filter(|v| v.is_finite()),
-        skewness_se: summary::skewness_se(n),
-        excess_kurtosis: g2.filter(|v| v.is_finite()),
-        excess_kurtosis_se: summary::excess_kurtosis_se(n),
-        shapiro_wilk: shapiro_wilk_sorted(sorted),
+    Shape::new(x.len(), summary::skewness_and_kurtosis(x), shapiro_wilk_sorted(sorted))
+}
+
+impl Shape {
+    /// The shape of n values from their (G1, G2) and Shapiro–Wilk result (non-finite
+    /// moments become `None`).
+    pub fn new(n: usize, (g1, g2): (Option<f64>, Option<f64>), shapiro_wilk: Result<SwTest, SwProblem>) -> Shape {
+        Shape {
+            n,
+            skewness: g1.filter(|v| v.is_finite()),
+            skewness_se: summary::skewness_se(n),
+            excess_kurtosis: g2.filter(|v| v.is_finite()),
+            excess_kurtosis_se: summary::excess_kurtosis_se(n),
+            shapiro_wilk,
+        }
     }
 }
 

@@ -28,6 +28,7 @@ use calibration::{DatasetStats, NullMethod, NullReference, FLAG_LEVEL};
 use flags::{lines_phrase, null_p_phrase, Code};
 use homogeneity::{Centre, HomogeneityProblem};
 use outliers::Rule;
+use std::borrow::Cow;
 
 /// Cell sizes above this ratio count as unequal for the variance–size pairing flag
 /// (METHODS §11.2 rule 3; Blanca et al. 2018 report the F test's robustness breaking
@@ -84,14 +85,26 @@ impl Diagnosis {
 /// design's cell sizes; large-sample draws when every cell is large). Never fails:
 /// degenerate cells give `None` values and structural flags.
 pub fn diagnose(design: &Design, fit: &Fit, seed: u64) -> Diagnosis {
-    let reference = NullReference::for_design(&design.cell_sizes(), seed);
-    diagnose_with(design, fit, &reference)
+    let sizes = design.cell_sizes();
+    // The reference depends only on the cell sizes: it is built beside the data's own
+    // statistics.
+    diagnose_given(design, fit, || Cow::Owned(NullReference::for_design(&sizes, seed)))
 }
 
 /// [`diagnose`] against a given null reference (which must have been simulated with
 /// this design's cell sizes). The calibration tests use it to judge many datasets of
 /// one design against one reference.
 pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> Diagnosis {
+    diagnose_given(design, fit, || Cow::Borrowed(reference))
+}
+
+/// The diagnostics, with the null reference from `reference` (run beside the passes
+/// over the data).
+fn diagnose_given<'r>(
+    design: &Design,
+    fit: &Fit,
+    reference: impl FnOnce() -> Cow<'r, NullReference> + Send,
+) -> Diagnosis {
     let loc = design.location();
     let n_cells = design.n_cells();
     let sizes = design.cell_sizes();
@@ -121,18 +134,21 @@ pub fn diagnose_with(design: &Design, fit: &Fit, reference: &NullReference) -> D
     let n_ratio = n_max / n_min;
 
     // Homogeneity tests.
-    // The four passes over all the data run side by side; the flags they raise are
-    // pushed below in a fixed order.
+    // The four passes over all the data run side by side, and beside the null reference;
+    // the flags they raise are pushed below in a fixed order.
     let medians: Vec<f64> = sorted_slices.iter().map(|s| crate::summary::median_sorted(s)).collect();
-    let ((levene, brown_forsythe), (resid_shape, discrete)) = rayon::join(
-        || {
-            rayon::join(
-                || homogeneity::levene(&cell_slices, Centre::Mean),
-                || homogeneity::levene_about(&cell_slices, &medians),
-            )
-        },
-        || rayon::join(|| residual_shape(design, fit, &sorted_slices), || discreteness(&sorted_slices)),
-    );
+    let (reference, ((levene, brown_forsythe), (resid_shape, discrete))) = rayon::join(reference, || {
+        rayon::join(
+            || {
+                rayon::join(
+                    || homogeneity::levene(&cell_slices, Centre::Mean),
+                    || homogeneity::levene_about(&cell_slices, &medians),
+                )
+            },
+            || rayon::join(|| residual_shape(design, fit, &sorted_slices), || discreteness(&sorted_slices)),
+        )
+    });
+    let reference: &NullReference = &reference;
     if let Err(problem) = levene {
         flags_out.push(Code::HomogeneityUndefined.flag(match problem {
             HomogeneityProblem::NoDf => {

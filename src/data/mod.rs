@@ -188,47 +188,116 @@ impl Ranges<'_> {
         columns: &Columns,
         sink: &mut RowSink<'_>,
     ) -> Result<()> {
-        let (spec, loc) = (self.spec, self.loc);
-        let nf = spec.factors.len();
         while self.next(reader, record, lines_before)? {
             if is_blank(record) {
                 continue;
             }
             let line = lines.line_at(record_byte(record));
             if record.len() != self.header_len {
-                return Err(Error::input_hint(
-                    loc.at_line(line),
-                    format!("this row has {} fields but the header has {}", record.len(), self.header_len),
-                    format!(
-                        "fields are split by {}; check for a stray delimiter or an unclosed quote, or name the delimiter with --delimiter",
-                        text::delimiter_name(self.delimiter)
-                    ),
-                ));
+                return Err(self.ragged(line, record.len()));
             }
             // One UTF-8 check per record rather than one per field used.
             let all = std::str::from_utf8(record.as_slice()).unwrap_or("");
             let field = |col: usize| record.range(col).and_then(|r| all.get(r)).unwrap_or("");
-            let mut factors = [Field::Text(""); MAX_FACTORS];
-            for (slot, &col) in factors.iter_mut().zip(&columns.factors) {
-                *slot = Field::Text(field(col));
-            }
-            let place = |role: Role| {
-                let name = match role {
-                    Role::Outcome => spec.outcome.clone(),
-                    Role::Factor(f) => spec.factors[f].clone(),
-                    Role::Id => spec.id.clone().unwrap_or_default(),
-                };
-                loc.at_line(line).in_column(name)
-            };
-            sink.push(
-                line,
-                Field::Text(field(columns.outcome)),
-                &factors[..nf],
-                columns.id.map(|col| Field::Text(field(col))),
-                &place,
-            )?;
+            self.push_row(sink, line, columns, field)?;
         }
         Ok(())
+    }
+
+    /// The error for a row of `fields` fields at `line` when the header has another count.
+    fn ragged(&self, line: u64, fields: usize) -> Error {
+        Error::input_hint(
+            self.loc.at_line(line),
+            format!("this row has {fields} fields but the header has {}", self.header_len),
+            format!(
+                "fields are split by {}; check for a stray delimiter or an unclosed quote, or name the delimiter with --delimiter",
+                text::delimiter_name(self.delimiter)
+            ),
+        )
+    }
+
+    /// Hands one row's fields (`field(col)`: the text of column `col`) to `sink`.
+    fn push_row<'f>(
+        &self,
+        sink: &mut RowSink<'_>,
+        line: u64,
+        columns: &Columns,
+        field: impl Fn(usize) -> &'f str,
+    ) -> Result<()> {
+        let (spec, loc) = (self.spec, self.loc);
+        let mut factors = [Field::Text(""); MAX_FACTORS];
+        for (slot, &col) in factors.iter_mut().zip(&columns.factors) {
+            *slot = Field::Text(field(col));
+        }
+        let place = |role: Role| {
+            let name = match role {
+                Role::Outcome => spec.outcome.clone(),
+                Role::Factor(f) => spec.factors[f].clone(),
+                Role::Id => spec.id.clone().unwrap_or_default(),
+            };
+            loc.at_line(line).in_column(name)
+        };
+        sink.push(
+            line,
+            Field::Text(field(columns.outcome)),
+            &factors[..spec.factors.len()],
+            columns.id.map(|col| Field::Text(field(col))),
+            &place,
+        )
+    }
+
+    /// [`Ranges::read_rows`] for text with no quote character, without the CSV state
+    /// machine: there, a record is a line (less a `\r` before its `\n`) cut at the
+    /// delimiter, and an empty line is no record. `text` starts at a line start on line
+    /// `first_line`.
+    ///
+    /// A `\r` elsewhere (the CSV reader ends a record there too) returns `Ok(false)` and
+    /// leaves `sink` to be discarded: the caller reads the text again with the CSV
+    /// reader. Rows are handed over as the CSV reader would, so the first error (a ragged
+    /// row, a bad number, a repeated id) is the one it would report.
+    fn read_plain_rows(&self, text: &str, first_line: u64, columns: &Columns, sink: &mut RowSink<'_>) -> Result<bool> {
+        let bytes = text.as_bytes();
+        let mut bounds: Vec<usize> = Vec::with_capacity(self.header_len + 1);
+        let mut line = first_line;
+        let mut start = 0;
+        while start < bytes.len() {
+            // One pass over the line: its end, its delimiters, any carriage return, and
+            // whether every byte but the delimiters is whitespace.
+            bounds.clear();
+            bounds.push(start);
+            let (mut end, mut returns, mut blank) = (start, 0usize, true);
+            while end < bytes.len() && bytes[end] != b'\n' {
+                let b = bytes[end];
+                if b == self.delimiter {
+                    bounds.push(end + 1);
+                } else {
+                    returns += usize::from(b == b'\r');
+                    blank &= b.is_ascii_whitespace();
+                }
+                end += 1;
+            }
+            let next = end + 1;
+            let content_end = if end > start && bytes[end - 1] == b'\r' {
+                returns -= 1;
+                end - 1
+            } else {
+                end
+            };
+            if returns > 0 {
+                return Ok(false);
+            }
+            if content_end > start && !blank {
+                if bounds.len() != self.header_len {
+                    return Err(self.ragged(line, bounds.len()));
+                }
+                bounds.push(content_end + 1);
+                let field = |col: usize| text.get(bounds[col]..bounds[col + 1] - 1).unwrap_or("");
+                self.push_row(sink, line, columns, field)?;
+            }
+            line += 1;
+            start = next;
+        }
+        Ok(true)
     }
 }
 

@@ -55,7 +55,15 @@ impl Split {
             let Some(nl) = body[from..].iter().position(|&b| b == b'\n') else {
                 break;
             };
-            let at = from + nl + 1;
+            let mut at = from + nl + 1;
+            // The CSV reader skips a byte-order mark at the start of its text: a range
+            // must not start at a line that begins with one (a stray mark mid-file).
+            while body[at..].starts_with(&[0xEF, 0xBB, 0xBF]) {
+                match body[at..].iter().position(|&b| b == b'\n') {
+                    Some(nl) => at += nl + 1,
+                    None => at = body.len(),
+                }
+            }
             if at >= body.len() {
                 break;
             }
@@ -99,19 +107,46 @@ pub(super) fn parse_ranges(
         .zip(&lines_before)
         .enumerate()
         .map(|(k, (&piece, &before))| {
-            let mut sink = RowSink::new(ctx.spec);
-            // The first part will take in all the others.
-            sink.reserve(if k == 0 { total_lines } else { counts[k] } as usize + 1);
+            let new_sink = || {
+                let mut sink = RowSink::new(ctx.spec);
+                // The first part will take in all the others.
+                sink.reserve(if k == 0 { total_lines } else { counts[k] } as usize + 1);
+                sink
+            };
+            let mut sink = new_sink();
             let mut reader = reader_over(piece, ctx.delimiter);
             let mut record = csv::ByteRecord::new();
-            let mut lines = text::LineCounter::new(piece, 1 + before);
-            let read = (|| {
-                if k == 0 {
+            // The body of a part: after the header in the first. Rows are read without
+            // the CSV reader where the text allows (`Ranges::read_plain_rows`).
+            let plain = (|| {
+                let body = if k == 0 {
                     ctx.read_header(&mut reader, &mut record)?;
-                    lines.line_at(super::record_byte(&record));
+                    reader.position().byte() as usize
+                } else {
+                    0
+                };
+                let first_line = 1 + before + piece[..body].iter().filter(|&&b| b == b'\n').count() as u64;
+                match std::str::from_utf8(&piece[body..]) {
+                    Ok(text) => ctx.read_plain_rows(text, first_line, columns, &mut sink),
+                    Err(_) => Ok(false),
                 }
-                ctx.read_rows(&mut reader, &mut record, &mut lines, before, columns, &mut sink)
             })();
+            let read = match plain {
+                Ok(true) => Ok(()),
+                Err(e) => Err(e),
+                Ok(false) => {
+                    sink = new_sink();
+                    let mut reader = reader_over(piece, ctx.delimiter);
+                    let mut lines = text::LineCounter::new(piece, 1 + before);
+                    (|| {
+                        if k == 0 {
+                            ctx.read_header(&mut reader, &mut record)?;
+                            lines.line_at(super::record_byte(&record));
+                        }
+                        ctx.read_rows(&mut reader, &mut record, &mut lines, before, columns, &mut sink)
+                    })()
+                }
+            };
             (sink, read.err())
         })
         .collect();
@@ -339,6 +374,34 @@ mod tests {
         }
     }
 
+    #[test]
+    fn plain_rows_read_as_the_csv_reader_reads_them() {
+        // Semicolon- and tab-delimited text (the plain reader cuts at the delimiter found),
+        // stray carriage returns, blank and ragged rows at every position.
+        for (delim, decimal) in [(";", ","), ("\t", ".")] {
+            let base: Vec<String> = std::iter::once(format!("pid{delim}y{delim}a{delim}b\r\n"))
+                .chain((0..40).map(|i| {
+                    format!(
+                        "{i}{delim}{}{decimal}{}{delim}{}{delim}{}\r\n",
+                        10 + i % 7,
+                        i % 10,
+                        ["lo", "mid"][i % 2],
+                        ["p", "q"][i / 2 % 2]
+                    )
+                }))
+                .collect();
+            for at in 1..base.len() {
+                for odd in ["\r", "\r\r\n", " \r\n", "1\r2\n", "x\n", "\u{feff}\n"] {
+                    let mut r = base.clone();
+                    r.insert(at, odd.replace(' ', delim));
+                    let mut spec = spec(true);
+                    spec.decimal_comma = decimal == ",";
+                    same_for_every_split(r.concat().as_bytes(), &spec);
+                }
+            }
+        }
+    }
+
     /// One generated line of a `pid,y,a,b` file.
     fn line_strategy() -> impl Strategy<Value = String> {
         let value = prop_oneof![
@@ -348,13 +411,18 @@ mod tests {
             1 => Just("1,5".to_string()),
             1 => Just("x".to_string()),
         ];
-        let label = prop_oneof![Just("lo"), Just("hi"), Just("mid"), Just(""), Just("NA"), Just("z z")];
-        let eol = prop_oneof![3 => Just("\n"), 1 => Just("\r\n")];
+        let label = prop_oneof![Just("lo"), Just("hi"), Just("mid"), Just(""), Just("NA"), Just("z z"), Just("é")];
+        // A lone carriage return ends a record for the CSV reader, as a line feed does.
+        let eol = prop_oneof![6 => Just("\n"), 2 => Just("\r\n"), 1 => Just("\r"), 1 => Just("\r\r\n")];
         prop_oneof![
             12 => (0u32..60, value, label.clone(), label, eol.clone()).prop_map(|(id, v, a, b, e)| format!("{id},{v},{a},{b}{e}")),
             1 => eol.clone().prop_map(str::to_string),
             1 => eol.clone().prop_map(|e| format!(" \t{e}")),
-            1 => eol.prop_map(|e| format!("1,2,lo{e}")),
+            1 => eol.clone().prop_map(|e| format!(",,,{e}")),
+            1 => eol.clone().prop_map(|e| format!("7,1.5,lo\rhi,p{e}")),
+            1 => eol.clone().prop_map(|e| format!("1,2,lo{e}")),
+            1 => eol.clone().prop_map(|e| format!("\u{feff}{e}")),
+            1 => eol.prop_map(|e| format!("1,2,lo,p,q{e}")),
         ]
     }
 
@@ -364,13 +432,20 @@ mod tests {
             lines in proptest::collection::vec(line_strategy(), 0..60),
             with_id in any::<bool>(),
             bom in any::<bool>(),
+            crlf_header in any::<bool>(),
+            final_eol in any::<bool>(),
         ) {
             let mut text = String::new();
             if bom {
                 text.push('\u{feff}');
             }
-            text.push_str("pid,y,a,b\n");
+            text.push_str(if crlf_header { "pid,y,a,b\r\n" } else { "pid,y,a,b\n" });
             text.extend(lines);
+            if !final_eol {
+                while text.ends_with(['\r', '\n']) {
+                    text.pop();
+                }
+            }
             let spec = spec(with_id);
             let expected = summary(&read(text.as_bytes(), &spec, SEQUENTIAL));
             for ranges in [2, 3, 7] {

@@ -71,11 +71,25 @@ fn main() {
     let (mut floors, mut wholes, mut ratios) = (Vec::new(), Vec::new(), Vec::new());
     for k in 0..pairs {
         let (f, w) = if k % 2 == 0 {
-            let f = seconds(|| drop(black_box(floor(black_box(&bytes)))));
-            (f, seconds(|| drop(black_box(analyze(black_box(&bytes))))))
+            let f = seconds(|| {
+                black_box(floor(black_box(&bytes)));
+            });
+            (
+                f,
+                seconds(|| {
+                    black_box(analyze(black_box(&bytes)));
+                }),
+            )
         } else {
-            let w = seconds(|| drop(black_box(analyze(black_box(&bytes)))));
-            (seconds(|| drop(black_box(floor(black_box(&bytes))))), w)
+            let w = seconds(|| {
+                black_box(analyze(black_box(&bytes)));
+            });
+            (
+                seconds(|| {
+                    black_box(floor(black_box(&bytes)));
+                }),
+                w,
+            )
         };
         floors.push(f);
         wholes.push(w);
